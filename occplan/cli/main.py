@@ -1,0 +1,82 @@
+"""The ``occplan`` command: builds the typer app from the command modules.
+
+Each module in :mod:`occplan.cli` listed in ``COMMAND_MODULES`` defines ``register(app)``.
+User errors (:class:`occplan.errors.OccplanError`) become one line on stderr and exit code 2;
+any other exception is a bug and keeps its traceback.
+"""
+
+from __future__ import annotations
+
+import importlib
+import sys
+import warnings
+
+import typer
+
+from .. import __version__
+from ..errors import OccplanError
+
+COMMAND_MODULES = [
+    "chord", "event", "zones", "find", "rank", "plot", "aspect", "demo", "bodies", "info",
+]
+
+
+def _version(value: bool):
+    if value:
+        typer.echo(f"occplan {__version__}")
+        raise typer.Exit()
+
+
+def build_app() -> typer.Typer:
+    app = typer.Typer(
+        name="occplan",
+        help="Plan stellar occultations by planetary rings (offline, from a JPL ephemeris).",
+        no_args_is_help=True,
+        add_completion=False,
+        pretty_exceptions_enable=False,
+    )
+
+    @app.callback()
+    def _main(
+        version: bool = typer.Option(
+            False, "--version", callback=_version, is_eager=True, help="Print the version and exit."
+        ),
+    ):
+        """Plan stellar occultations by planetary rings."""
+
+    for name in COMMAND_MODULES:
+        try:
+            module = importlib.import_module(f"occplan.cli.{name}")
+        except ModuleNotFoundError as exc:
+            if exc.name == f"occplan.cli.{name}":
+                continue  # command not built yet
+            raise
+        module.register(app)
+    return app
+
+
+def run(argv: list[str] | None = None) -> None:
+    """Console entry point."""
+    warnings.filterwarnings("ignore", message=".*finals.*", category=UserWarning)
+    app = build_app()
+    try:
+        app(args=argv, standalone_mode=False)
+    except OccplanError as exc:
+        typer.echo(f"occplan: error: {exc}", err=True)
+        sys.exit(2)
+    except typer.Exit as exc:
+        sys.exit(exc.exit_code)
+    except typer.Abort:
+        typer.echo("occplan: aborted", err=True)
+        sys.exit(1)
+    except Exception as exc:  # click usage errors
+        import click
+
+        if isinstance(exc, click.exceptions.ClickException):
+            exc.show()
+            sys.exit(2)
+        raise
+
+
+if __name__ == "__main__":
+    run()

@@ -1,0 +1,76 @@
+"""Options shared by several commands, defined once so they mean the same everywhere.
+
+Also :func:`user_errors`, which turns :class:`occplan.errors.OccplanError` into one line on
+stderr and exit code 2 (so typer's CliRunner sees the same behaviour as the console script).
+"""
+
+from __future__ import annotations
+
+import functools
+import sys
+import warnings
+from pathlib import Path
+from typing import Annotated, Optional
+
+import typer
+
+from ..errors import OccplanError
+
+# --- body -----------------------------------------------------------------------------------
+Body = Annotated[str, typer.Option("--body", help="Ringed body: saturn, uranus, neptune, jupiter, or a body TOML file.")]
+
+# --- star -----------------------------------------------------------------------------------
+Star = Annotated[Optional[str], typer.Option("--star", help='Star position "RA DEC": sexagesimal ("01 23 45.6 +04 05 06") or degrees ("20.94 4.08"), ICRS at --star-epoch.')]
+PmRa = Annotated[float, typer.Option("--pm-ra", help="Proper motion in RA, mu_alpha* = mu_alpha cos(dec), mas/yr.")]
+PmDec = Annotated[float, typer.Option("--pm-dec", help="Proper motion in Dec, mas/yr.")]
+Parallax = Annotated[float, typer.Option("--parallax", help="Parallax, mas.")]
+Rv = Annotated[float, typer.Option("--rv", help="Radial velocity, km/s.")]
+StarEpoch = Annotated[str, typer.Option("--star-epoch", help="Catalogue epoch of the position: Julian year (2016.0) or ISO date.")]
+Vmag = Annotated[Optional[float], typer.Option("--vmag", help="Star V magnitude.")]
+Kmag = Annotated[Optional[float], typer.Option("--kmag", help="Star K magnitude.")]
+Catalog = Annotated[Optional[Path], typer.Option("--catalog", help="Star catalog (CSV, ECSV or VOTable, Gaia-style columns).")]
+StarId = Annotated[Optional[str], typer.Option("--star-id", help="source_id of the star in --catalog.")]
+
+# --- observer -------------------------------------------------------------------------------
+Site = Annotated[Optional[str], typer.Option("--site", help="Site name from --sites.")]
+Sites = Annotated[Optional[Path], typer.Option("--sites", help="Sites TOML file ([[sites]] with name, lat_deg, lon_deg, height_m).")]
+Lat = Annotated[Optional[float], typer.Option("--lat", help="Geodetic latitude, deg (north positive, WGS84).")]
+Lon = Annotated[Optional[float], typer.Option("--lon", help="Longitude, deg (east positive, WGS84).")]
+Height = Annotated[float, typer.Option("--height", help="Height above the WGS84 ellipsoid, m.")]
+Geocentre = Annotated[bool, typer.Option("--geocentre", help="Observe from the Earth's centre.")]
+ObserverId = Annotated[Optional[int], typer.Option("--observer-id", help="NAIF id of an observer held by a --kernel (a spacecraft).")]
+
+# --- window ---------------------------------------------------------------------------------
+Start = Annotated[Optional[str], typer.Option("--start", help="Window start, UTC ISO 8601 (2027-03-01T04:00:00Z).")]
+End = Annotated[Optional[str], typer.Option("--end", help="Window end, UTC ISO 8601.")]
+Step = Annotated[float, typer.Option("--step", help="Sample step, s.")]
+
+# --- ephemeris and corrections --------------------------------------------------------------
+Kernel = Annotated[Optional[list[Path]], typer.Option("--kernel", help="Extra SPK kernel (repeatable): a planet-centre or spacecraft kernel.")]
+NoDeflection = Annotated[bool, typer.Option("--no-deflection", help="Switch off the light deflection by the planet (for comparisons).")]
+Barycentre = Annotated[bool, typer.Option("--barycentre", help="Use the system barycentre as planet centre, uncorrected (for comparisons).")]
+
+# --- output ---------------------------------------------------------------------------------
+Format = Annotated[str, typer.Option("--format", help="Output format: table, csv, ecsv or json.")]
+Out = Annotated[Optional[Path], typer.Option("--out", help="Write the output to this file instead of stdout.")]
+Overwrite = Annotated[bool, typer.Option("--overwrite", help="Allow --out to replace an existing file.")]
+
+FORMATS = ("table", "csv", "ecsv", "json")
+
+
+def user_errors(func):
+    """Decorator for command functions: user errors become one stderr line and exit 2."""
+
+    @functools.wraps(func)
+    def wrapper(*args, **kwargs):
+        with warnings.catch_warnings():
+            # skyfield-data's finals file carries an expiry date; occplan uses the built-in
+            # time scale and says so in `occplan info`.
+            warnings.filterwarnings("ignore", message=".*finals.*")
+            try:
+                return func(*args, **kwargs)
+            except OccplanError as exc:
+                print(f"occplan: error: {exc}", file=sys.stderr)
+                raise typer.Exit(2) from None
+
+    return wrapper

@@ -1,0 +1,159 @@
+"""Tables out: a people's table on stdout, CSV, ECSV (units and provenance in the header) or JSON.
+
+A result is a list of row dicts plus a ``meta`` dict.  JSON output is one object
+``{"meta": ..., "rows": [...]}``.  Files are written whole to a temporary name and renamed,
+so a failure never leaves a half-written file.
+"""
+
+from __future__ import annotations
+
+import io
+import json
+import math
+import os
+import sys
+import tempfile
+from pathlib import Path
+
+import numpy as np
+
+from .errors import InputError, OutputExistsError
+
+FORMATS = ("table", "csv", "ecsv", "json")
+
+
+def _unit_of(name: str) -> str | None:
+    for suffix, unit in (
+        ("_km_s", "km / s"), ("_deg_day", "deg / d"), ("_rad_s", "rad / s"), ("_km", "km"),
+        ("_deg", "deg"), ("_au", "AU"), ("_arcsec", "arcsec"), ("_s", "s"), ("_g_cm2", "g / cm2"),
+        ("_mas", "mas"), ("_um", "um"),
+    ):
+        if name.endswith(suffix):
+            return unit
+    return None
+
+
+def _plain(value):
+    """JSON-safe version of a value (numpy scalars, nan -> None)."""
+    if isinstance(value, dict):
+        return {k: _plain(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_plain(v) for v in value]
+    if isinstance(value, np.ndarray):
+        return [_plain(v) for v in value.tolist()]
+    if isinstance(value, (np.bool_,)):
+        return bool(value)
+    if isinstance(value, np.integer):
+        return int(value)
+    if isinstance(value, (float, np.floating)):
+        v = float(value)
+        return None if not math.isfinite(v) else v
+    return value
+
+
+def check_format(fmt: str) -> str:
+    f = fmt.lower()
+    if f not in FORMATS:
+        raise InputError(f"unknown format {fmt!r}; choose one of {', '.join(FORMATS)}")
+    return f
+
+
+def check_out(out: str | Path | None, overwrite: bool) -> None:
+    """Refuse an existing output file before any work is done."""
+    if out is not None and Path(out).exists() and not overwrite:
+        raise OutputExistsError(f"{out} exists; pass --overwrite to replace it")
+
+
+def to_astropy(rows: list[dict], meta: dict, columns: list[str] | None = None):
+    """An astropy Table with units inferred from the column-name suffixes."""
+    from astropy.table import Table
+
+    cols = columns or (list(rows[0].keys()) if rows else [])
+    table = Table()
+    for c in cols:
+        vals = [r.get(c) for r in rows]
+        if any(isinstance(v, (dict, list)) for v in vals):
+            vals = [json.dumps(_plain(v)) for v in vals]
+        elif any(isinstance(v, float) or v is None for v in vals) and not any(
+            isinstance(v, str) for v in vals
+        ):
+            vals = [np.nan if v is None else v for v in vals]
+        table[c] = vals
+        unit = _unit_of(c)
+        if unit and table[c].dtype.kind == "f":
+            table[c].unit = unit
+    table.meta.update(_plain(meta))
+    return table
+
+
+def _format_cell(v) -> str:
+    if isinstance(v, (bool, np.bool_)):
+        return "yes" if v else "no"
+    if isinstance(v, (float, np.floating)):
+        if not math.isfinite(v):
+            return "-"
+        a = abs(v)
+        if a >= 1e5:
+            return f"{v:.1f}"
+        if a >= 100:
+            return f"{v:.2f}"
+        if a >= 0.01 or a == 0:
+            return f"{v:.3f}"
+        return f"{v:.3g}"
+    if v is None:
+        return "-"
+    return str(v)
+
+
+def render_text(rows: list[dict], columns: list[str] | None = None, title: str | None = None) -> str:
+    """A plain aligned text table for people."""
+    cols = columns or (list(rows[0].keys()) if rows else [])
+    cells = [[_format_cell(r.get(c)) for c in cols] for r in rows]
+    widths = [max([len(c)] + [len(row[i]) for row in cells]) for i, c in enumerate(cols)]
+    lines = []
+    if title:
+        lines.append(title)
+    lines.append("  ".join(c.rjust(w) for c, w in zip(cols, widths)))
+    lines.append("  ".join("-" * w for w in widths))
+    for row in cells:
+        lines.append("  ".join(v.rjust(w) for v, w in zip(row, widths)))
+    return "\n".join(lines) + "\n"
+
+
+def render(rows: list[dict], meta: dict, fmt: str, columns: list[str] | None = None,
+           header: str | None = None) -> str:
+    """The text of a result in the given format."""
+    fmt = check_format(fmt)
+    if fmt == "json":
+        return json.dumps({"meta": _plain(meta), "rows": _plain(rows)}, indent=1) + "\n"
+    if fmt == "table":
+        return (header or "") + render_text(rows, columns)
+    table = to_astropy(rows, meta, columns)
+    buf = io.StringIO()
+    if fmt == "csv":
+        table.meta.clear()
+        table.write(buf, format="ascii.csv")
+    else:
+        table.write(buf, format="ascii.ecsv")
+    return buf.getvalue()
+
+
+def emit(text: str, out: str | Path | None, overwrite: bool) -> None:
+    """Write text to stdout or atomically to a file."""
+    if out is None:
+        sys.stdout.write(text)
+        return
+    path = Path(out)
+    check_out(path, overwrite)
+    directory = path.parent if str(path.parent) else Path(".")
+    if not directory.is_dir():
+        raise InputError(f"folder {str(directory)!r} of --out does not exist")
+    fd, tmp = tempfile.mkstemp(dir=directory, prefix=f".{path.name}.", suffix=".tmp")
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text)
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
