@@ -3,7 +3,10 @@
 Default kernel: DE421 from the ``skyfield-data`` package (offline).  Extra SPK kernels (user
 ``--kernel`` files) are searched first for the planet centre and for spacecraft observers.
 Time scale: skyfield's built-in one (``load.timescale(builtin=True)``), so nothing is
-downloaded.  All positions are barycentric ICRF in km; times are TDB Julian dates inside.
+downloaded.  All positions are barycentric ICRF in km.  Methods take a skyfield Time or TDB
+Julian dates; the geometry passes Times built from TDB seconds past J2000
+(:func:`time_from_tdb_s`), because a float Julian date resolves only 40 us (1.2 m of Earth
+motion).
 
 Notes
 -----
@@ -79,16 +82,38 @@ def parse_utc(text: str):
     return timescale().utc(y, mo, d, h, mi, s)
 
 
-def utc_iso(tdb_jd, places: int = 3):
-    """UTC ISO 8601 strings ('...Z') for TDB Julian dates (scalar -> str, array -> list)."""
-    t = timescale().tdb_jd(np.asarray(tdb_jd, dtype=float))
+J2000_TDB_JD = 2451545.0
+
+
+def as_time(when):
+    """A skyfield Time from a Time (unchanged) or TDB Julian date(s)."""
+    from skyfield.timelib import Time
+
+    if isinstance(when, Time):
+        return when
+    return timescale().tdb_jd(np.asarray(when, dtype=float))
+
+
+def time_from_tdb_s(tdb_s):
+    """A skyfield Time from TDB seconds past J2000, keeping sub-microsecond precision.
+
+    Internal times of the geometry are TDB seconds past J2000 (float64: 0.1 us resolution);
+    a float Julian date resolves only 40 us, which moves the Earth by 1.2 m.
+    """
+    return timescale().tdb_jd(J2000_TDB_JD, np.asarray(tdb_s, dtype=float) / 86400.0)
+
+
+def tdb_s_of(time) -> np.ndarray:
+    """TDB seconds past J2000 of a skyfield Time (precise: uses its two-part date)."""
+    return ((time.whole - J2000_TDB_JD) + time.tdb_fraction) * 86400.0
+
+
+def utc_iso(when, places: int = 3):
+    """UTC ISO 8601 strings ('...Z') for a Time or TDB Julian dates (scalar -> str, array -> list)."""
+    t = as_time(when)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         return t.utc_iso(places=places)
-
-
-def time_from_tdb(tdb_jd):
-    return timescale().tdb_jd(np.asarray(tdb_jd, dtype=float))
 
 
 def parse_epoch_jd_tt(text: str | float) -> float:
@@ -260,7 +285,7 @@ class Ephemeris:
         if not segs:
             raise CoverageError(f"no loaded kernel holds {what} (NAIF id {target}); "
                                 "pass --kernel with one that does")
-        t = np.atleast_1d(np.asarray(tdb_jd, dtype=float))
+        t = np.atleast_1d(as_time(tdb_jd).tdb)
         lo = min(s.spk_segment.start_jd for s in segs)
         hi = max(s.spk_segment.end_jd for s in segs)
         if t.min() < lo or t.max() > hi:
@@ -278,7 +303,7 @@ class Ephemeris:
     # --- positions ---------------------------------------------------------------------
     def position_km(self, target: int, tdb_jd):
         """Barycentric ICRF position (km) of a NAIF body at TDB Julian dates; (3,) or (3,N)."""
-        t = self.ts.tdb_jd(np.asarray(tdb_jd, dtype=float))
+        t = as_time(tdb_jd)
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             return self._vector(target).at(t).position.km
@@ -301,7 +326,7 @@ class Ephemeris:
         raise InputError(f"unknown observer kind {observer.kind!r}")
 
     def observer_km(self, observer: Observer, tdb_jd):
-        t = self.ts.tdb_jd(np.asarray(tdb_jd, dtype=float))
+        t = as_time(tdb_jd)
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             return self.observer_skyfield(observer).at(t).position.km
@@ -321,7 +346,7 @@ class Ephemeris:
             parallax_mas=star.parallax_mas, radial_km_per_s=star.rv_km_s,
             epoch=star.epoch_jd_tt,
         )
-        t = self.ts.tdb_jd(np.asarray(tdb_jd, dtype=float))
+        t = as_time(tdb_jd)
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             obs = self.observer_skyfield(observer).at(t)
@@ -346,7 +371,7 @@ class Ephemeris:
             return bary
         from .mean_orbits import barycentre_offset_km
 
-        return bary + barycentre_offset_km(body, tdb_jd)
+        return bary + barycentre_offset_km(body, as_time(tdb_jd).tdb)
 
     def check_planet_coverage(self, body, tdb_jd) -> None:
         target = body.naif_id if self.has_target(body.naif_id, True) else body.barycentre_naif_id

@@ -1,0 +1,72 @@
+"""Turning the shared command-line options into library objects (no physics here)."""
+
+from __future__ import annotations
+
+from ..bodies import get_body
+from ..catalogs import check_magnitude, find_site
+from ..ephemeris import Observer, StarSpec, get_ephemeris, parse_epoch_jd_tt, parse_star_position, parse_utc, tdb_s_of
+from ..errors import InputError
+
+
+def ephemeris(kernel):
+    return get_ephemeris(tuple(str(k) for k in (kernel or [])))
+
+
+def body(name):
+    return get_body(name)
+
+
+def star(star_text=None, pm_ra=0.0, pm_dec=0.0, parallax=0.0, rv=0.0, star_epoch="2016.0",
+         vmag=None, kmag=None, catalog=None, star_id=None) -> StarSpec:
+    """A StarSpec from --star and its motion options, or from --catalog/--star-id."""
+    if catalog is not None:
+        if star_text is not None:
+            raise InputError("give either --star or --catalog/--star-id, not both")
+        if star_id is None:
+            raise InputError("--catalog needs --star-id (the source_id of the star)")
+        from ..catalogs import catalog_star
+
+        spec = catalog_star(catalog, star_id)
+        if vmag is not None or kmag is not None:
+            from dataclasses import replace
+
+            spec = replace(spec, vmag=check_magnitude(vmag, "V") if vmag is not None else spec.vmag,
+                           kmag=check_magnitude(kmag, "K") if kmag is not None else spec.kmag)
+        return spec
+    if star_text is None:
+        raise InputError('give the star: --star "RA DEC" (or --catalog FILE --star-id ID)')
+    ra, dec = parse_star_position(star_text)
+    return StarSpec(ra_deg=ra, dec_deg=dec, pm_ra_mas_yr=pm_ra, pm_dec_mas_yr=pm_dec,
+                    parallax_mas=parallax, rv_km_s=rv, epoch_jd_tt=parse_epoch_jd_tt(star_epoch),
+                    name=star_text, vmag=check_magnitude(vmag, "V"), kmag=check_magnitude(kmag, "K"))
+
+
+def observer(site=None, sites=None, lat=None, lon=None, height=0.0, geocentre=False,
+             observer_id=None) -> Observer:
+    """An Observer from exactly one of --site/--sites, --lat/--lon, --geocentre, --observer-id."""
+    chosen = [site is not None, lat is not None or lon is not None, bool(geocentre),
+              observer_id is not None]
+    if sum(chosen) != 1:
+        raise InputError("give exactly one observer: --site NAME --sites FILE, --lat/--lon "
+                         "[--height], --geocentre, or --observer-id ID --kernel FILE")
+    if site is not None:
+        if sites is None:
+            raise InputError("--site needs --sites FILE (a TOML file of [[sites]])")
+        return find_site(sites, site).observer()
+    if lat is not None or lon is not None:
+        if lat is None or lon is None:
+            raise InputError("--lat and --lon go together")
+        return Observer.site("", lat, lon, height)
+    if geocentre:
+        return Observer.geocentre()
+    return Observer.spacecraft(observer_id)
+
+
+def window(start, end) -> tuple[float, float]:
+    """(start, end) in TDB seconds past J2000 from --start/--end."""
+    if start is None or end is None:
+        raise InputError("give the time window: --start and --end (UTC ISO 8601)")
+    t0, t1 = tdb_s_of(parse_utc(start)), tdb_s_of(parse_utc(end))
+    if t1 <= t0:
+        raise InputError(f"--end {end} is not after --start {start}")
+    return float(t0), float(t1)

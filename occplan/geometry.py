@@ -1,0 +1,460 @@
+"""The ring-plane track of a star for an observer over a time array.
+
+For reception times t at the observer O(t) (barycentric ICRF, km; TDB Julian dates):
+
+1. Star direction s(t): astrometric, from :meth:`Ephemeris.star_direction` (proper motion,
+   parallax from O(t), radial velocity; no aberration on the star, none on the planet).
+2. Ring time t_r = t - lambda/c with lambda the distance along the ray to the ring-plane
+   intercept; planet centre P(t_r) and pole n(t_r); iterated three times (converges to
+   well under a millimetre: each pass shrinks the error by v/c ~ 1e-4).
+3. Intercept lambda = n.(P - O)/(n.s), rho = O + lambda s - P.
+4. Light deflection by the planet: the ray that reaches the observer with sky-plane impact
+   parameter b passed the planet at b' = (b + sqrt(b^2 + 4 R_E^2))/2, R_E^2 = 4 GM D / c^2
+   (Einstein-radius form of the point-mass deflection alpha = 4GM/(c^2 b'); about +23 km at
+   100,000 km for Saturn at 9 AU).  The ray is shifted outward in the sky plane accordingly.
+5. Ring radius r = |rho|; inertial ring longitude from the ascending node of the ring plane on
+   the ICRF equator: N = z x n/|z x n|, M = n x N, longitude = atan2(rho.M, rho.N).
+6. Sky plane at the planet: f = z x s/|z x s| (east), g = s x f (north), offsets in km.
+   Opening angle B = asin(n.(O-P)/|O-P|); star elevation B* = asin(n.s); pole position
+   angle P = atan2(n.f, n.g) (from north through east).
+
+Speed: the exact geometry is evaluated on coarse nodes (60 s by default) and the smooth
+quantities (in-plane components of rho, sky-plane offsets, angles, distance, limb function)
+are interpolated with cubic splines; derivatives (radial velocity, longitude rate) come from
+the splines, not from finite differences.  ``tests/test_geometry.py`` measures the
+interpolation error against exact evaluation.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.interpolate import CubicSpline
+from scipy.optimize import brentq
+
+from . import __version__
+from .constants import SECONDS_PER_DAY, SPEED_OF_LIGHT_KM_S
+from .ephemeris import J2000_TDB_JD, time_from_tdb_s, utc_iso
+from .errors import GeometryError, InputError
+
+EDGE_ON_LIMIT_DEG = 0.01
+LIGHT_TIME_PASSES = 3
+DEFAULT_NODE_STEP_S = 60.0
+_Z = np.array([0.0, 0.0, 1.0])
+
+
+def _unit(v):
+    return v / np.linalg.norm(v, axis=0)
+
+
+def _dot(a, b):
+    return np.einsum("i...,i...->...", a, b)
+
+
+def _cross(a, b):
+    return np.cross(a, b, axis=0)
+
+
+@dataclass(frozen=True)
+class Corrections:
+    """Which corrections the track applies (reported in output metadata)."""
+
+    deflection: bool = True
+    barycentre_only: bool = False
+
+
+def exact_geometry(eph, body, observer, star, tdb_s, corrections: Corrections = Corrections()):
+    """Exact ring-plane geometry at each time (no interpolation).
+
+    Parameters
+    ----------
+    eph : occplan.ephemeris.Ephemeris
+    body : occplan.bodies.Body
+    observer : occplan.ephemeris.Observer
+    star : occplan.ephemeris.StarSpec
+    tdb_s : array_like
+        Reception times at the observer, TDB seconds past J2000.
+
+    Returns
+    -------
+    dict of arrays (trailing axis time): ``rho`` (3,N) intercept minus planet centre, km;
+    ``u_node``/``u_perp`` in-plane components of rho along N and M, km; ``sky_f``/``sky_g``
+    sky-plane offsets of the ray from the planet centre, km; ``opening_angle`` B,
+    ``star_elevation`` B*, ``pole_angle`` P (rad); ``distance`` observer-planet, km;
+    ``limb`` scaled closest distance of the ray to the oblate planet minus 1 (negative: the
+    star is behind the planet); ``ring_time`` TDB s at the intercept; ``deflection`` radial
+    sky-plane shift applied, km.
+    """
+    t = np.atleast_1d(np.asarray(tdb_s, dtype=float))
+    when = time_from_tdb_s(t)
+    obs = eph.observer_km(observer, when).reshape(3, -1)
+    s = eph.star_direction(star, observer, when).reshape(3, -1)
+    barycentre_only = corrections.barycentre_only
+    planet = eph.planet_km(body, when, barycentre_only=barycentre_only).reshape(3, -1)
+    t_ring = t - np.linalg.norm(planet - obs, axis=0) / SPEED_OF_LIGHT_KM_S
+    for _ in range(LIGHT_TIME_PASSES):
+        planet = eph.planet_km(body, time_from_tdb_s(t_ring),
+                               barycentre_only=barycentre_only).reshape(3, -1)
+        n = body.pole.unit_vector(J2000_TDB_JD + t_ring / SECONDS_PER_DAY).reshape(3, -1)
+        lam = _dot(n, planet - obs) / _dot(n, s)
+        t_ring = t - lam / SPEED_OF_LIGHT_KM_S
+
+    q = planet - obs
+    distance = np.linalg.norm(q, axis=0)
+    # Offset of the straight ray from the planet centre, perpendicular to s.
+    d = _dot(q, s) * s - q
+    shift = np.zeros_like(distance)
+    if corrections.deflection:
+        b = np.linalg.norm(d, axis=0)
+        re2 = 4.0 * body.gm_km3_s2 * distance / SPEED_OF_LIGHT_KM_S**2
+        b_true = 0.5 * (b + np.sqrt(b * b + 4.0 * re2))
+        shift = b_true - b
+        d = d * (b_true / np.where(b > 0, b, 1.0))
+    origin = planet + d - _dot(q, s) * s  # a point on the (shifted) ray: the closest point
+    lam = _dot(n, planet - origin) / _dot(n, s)
+    rho = origin + lam * s - planet
+
+    node = _unit(_cross(np.broadcast_to(_Z[:, None], n.shape), n))
+    perp = _cross(n, node)
+    east = _unit(_cross(np.broadcast_to(_Z[:, None], s.shape), s))
+    north = _cross(s, east)
+
+    # Oblate-limb test: scale the planet to a unit sphere and find the ray's closest approach.
+    w = origin - planet
+    scale_eq, scale_pol = 1.0 / body.equatorial_radius_km, 1.0 / body.polar_radius_km
+    w_s = w * scale_eq + (scale_pol - scale_eq) * _dot(w, n) * n
+    s_s = s * scale_eq + (scale_pol - scale_eq) * _dot(s, n) * n
+    mu = -_dot(w_s, s_s) / _dot(s_s, s_s)
+    limb = np.linalg.norm(w_s + mu * s_s, axis=0) - 1.0
+
+    return {
+        "rho": rho,
+        "u_node": _dot(rho, node),
+        "u_perp": _dot(rho, perp),
+        "sky_f": _dot(d, east),
+        "sky_g": _dot(d, north),
+        "opening_angle": np.arcsin(np.clip(_dot(n, -q) / distance, -1, 1)),
+        "star_elevation": np.arcsin(np.clip(_dot(n, s), -1, 1)),
+        "pole_angle": np.arctan2(_dot(n, east), _dot(n, north)),
+        "distance": distance,
+        "limb": limb,
+        "ring_time": t_ring,
+        "deflection": shift,
+    }
+
+
+@dataclass
+class Crossing:
+    """The chord crossing a ring-region boundary."""
+
+    boundary_km: float
+    region: str  # region whose edge this is
+    edge: str  # 'inner' | 'outer'
+    tdb_s: float
+    side: str  # 'ingress' (r decreasing) | 'egress'
+    radial_velocity_km_s: float
+    behind_planet: bool
+
+
+@dataclass
+class RegionPass:
+    """One passage of the chord through a ring region on one side (a radial profile)."""
+
+    region: str
+    side: str
+    start_s: float
+    end_s: float
+    clipped: bool  # the window cut this passage short
+
+
+@dataclass
+class Track:
+    """The ring-plane track of a star: per-sample arrays plus events and metadata."""
+
+    body: object
+    observer: object
+    star: object
+    tdb_s: np.ndarray  # TDB seconds past J2000
+    ring_radius_km: np.ndarray
+    ring_longitude_deg: np.ndarray
+    radial_velocity_km_s: np.ndarray
+    longitude_rate_deg_s: np.ndarray
+    sky_f_km: np.ndarray
+    sky_g_km: np.ndarray
+    opening_angle_deg: np.ndarray
+    star_elevation_deg: np.ndarray
+    pole_position_angle_deg: np.ndarray
+    distance_km: np.ndarray
+    behind_planet: np.ndarray
+    crossings: list = field(default_factory=list)
+    passes: list = field(default_factory=list)
+    closest_approach_s: float = np.nan
+    closest_approach_radius_km: float = np.nan
+    closest_approach_at_edge: bool = False
+    meta: dict = field(default_factory=dict)
+    interp: object = None  # the _Interpolant used (for evaluation at other times)
+
+    @property
+    def crosses_rings(self) -> bool:
+        return bool(self.passes)
+
+    def regions(self):
+        return self.body.region_at(self.ring_radius_km)
+
+    def rows(self) -> list[dict]:
+        """Chord rows with the DESIGN.md section 8 field names."""
+        times = utc_iso(time_from_tdb_s(self.tdb_s))
+        regions = self.regions()
+        return [
+            {
+                "time_utc": times[i],
+                "ring_radius_km": float(self.ring_radius_km[i]),
+                "ring_longitude_deg": float(self.ring_longitude_deg[i]),
+                "radial_velocity_km_s": float(self.radial_velocity_km_s[i]),
+                "sky_f_km": float(self.sky_f_km[i]),
+                "sky_g_km": float(self.sky_g_km[i]),
+                "opening_angle_deg": float(self.opening_angle_deg[i]),
+                "behind_planet": bool(self.behind_planet[i]),
+                "region": regions[i],
+            }
+            for i in range(len(self.tdb_s))
+        ]
+
+
+class _Interpolant:
+    """Cubic splines of the smooth exact quantities on time nodes (seconds from t0)."""
+
+    KEYS = ("u_node", "u_perp", "sky_f", "sky_g", "opening_angle", "star_elevation",
+            "pole_cos", "pole_sin", "distance", "limb")
+
+    def __init__(self, node_s, exact):
+        self.t0 = float(node_s[0])
+        x = node_s - self.t0
+        values = dict(exact)
+        values["pole_cos"] = np.cos(exact["pole_angle"])
+        values["pole_sin"] = np.sin(exact["pole_angle"])
+        stack = np.vstack([values[k] for k in self.KEYS])
+        self.spline = CubicSpline(x, stack, axis=1)
+        self.deriv = self.spline.derivative()
+        self.x_range = (x[0], x[-1])
+
+    def seconds(self, tdb_s):
+        return np.asarray(tdb_s, dtype=float) - self.t0
+
+    def __call__(self, tdb_s):
+        v = self.spline(self.seconds(tdb_s))
+        return dict(zip(self.KEYS, v))
+
+    def radius(self, tdb_s):
+        v = self.spline(self.seconds(tdb_s))
+        return np.hypot(v[0], v[1])
+
+    def radial_velocity(self, tdb_s):
+        x = self.seconds(tdb_s)
+        v, dv = self.spline(x), self.deriv(x)
+        r = np.hypot(v[0], v[1])
+        return (v[0] * dv[0] + v[1] * dv[1]) / r
+
+    def longitude_rate(self, tdb_s):
+        x = self.seconds(tdb_s)
+        v, dv = self.spline(x), self.deriv(x)
+        return (v[0] * dv[1] - v[1] * dv[0]) / (v[0] ** 2 + v[1] ** 2)
+
+    def limb(self, tdb_s):
+        return self.spline(self.seconds(tdb_s))[9]
+
+
+def _roots(func, grid_s):
+    """All sign changes of func on a grid, refined by Brent's method (TDB s)."""
+    vals = func(grid_s)
+    idx = np.nonzero(np.sign(vals[:-1]) * np.sign(vals[1:]) < 0)[0]
+    out = []
+    for i in idx:
+        a, b = grid_s[i], grid_s[i + 1]
+        out.append(brentq(lambda x: float(func(np.array([x]))[0]), a, b, xtol=1e-6, rtol=1e-15))
+    return out
+
+
+def window_times(start_s: float, end_s: float, step_s: float) -> np.ndarray:
+    """Sample times from start to end inclusive at step_s seconds (TDB seconds past J2000)."""
+    if not np.isfinite(step_s) or step_s <= 0:
+        raise InputError(f"--step must be positive, got {step_s} s")
+    if end_s <= start_s:
+        raise InputError("the window end is not after its start; check --start and --end")
+    n = int(np.floor((end_s - start_s) / step_s + 1e-6)) + 1
+    if n > 5_000_000:
+        raise InputError(f"{n} samples is too many; use a larger --step")
+    return start_s + np.arange(n) * step_s
+
+
+def compute_track(eph, body, observer, star, tdb_s, corrections: Corrections = Corrections(),
+                  node_step_s: float = DEFAULT_NODE_STEP_S, exact: bool = False) -> Track:
+    """The ring-plane track of ``star`` seen by ``observer`` at times ``tdb_s``.
+
+    Times are TDB seconds past J2000 (see :func:`occplan.ephemeris.time_from_tdb_s`).
+
+    The exact geometry (:func:`exact_geometry`) is evaluated on nodes every ``node_step_s``
+    seconds spanning the window and interpolated by cubic splines (``exact=True`` evaluates
+    every sample exactly instead; the interpolation error is measured in the tests and in
+    ``benchmarks/bench_chord.py``).  Ring-region boundary crossings and the closest approach
+    are found by Brent's method on the interpolated r(t).
+
+    Raises
+    ------
+    CoverageError
+        A window outside the loaded kernels.
+    GeometryError
+        Rings nearly edge-on (|B| or |B*| < 0.01 deg): the chord is undefined there.
+    """
+    t = np.atleast_1d(np.asarray(tdb_s, dtype=float))
+    if t.size < 1 or not np.all(np.isfinite(t)):
+        raise InputError("no valid sample times")
+    if t.size > 1 and np.any(np.diff(t) <= 0):
+        raise InputError("sample times must increase")
+    span_s = t[-1] - t[0]
+    n_nodes = max(int(np.ceil(span_s / node_step_s)) + 1, 2)
+    pad = node_step_s
+    nodes = np.linspace(t[0], t[-1], n_nodes)
+    nodes = np.concatenate([[t[0] - 2 * pad, t[0] - pad], nodes, [t[-1] + pad, t[-1] + 2 * pad]])
+    node_times = time_from_tdb_s(nodes)
+    eph.check_planet_coverage(body, node_times)
+    eph.check_observer_coverage(observer, node_times)
+
+    node_geo = exact_geometry(eph, body, observer, star, nodes, corrections)
+    _check_edge_on(node_geo)
+    interp = _Interpolant(nodes, node_geo)
+    if exact:
+        geo = exact_geometry(eph, body, observer, star, t, corrections)
+        geo["pole_cos"], geo["pole_sin"] = np.cos(geo["pole_angle"]), np.sin(geo["pole_angle"])
+        x = interp.seconds(t)
+        dv = interp.deriv(x)
+        # Derivatives: from the node splines even in exact mode (no finite differences).
+        u0, u1 = geo["u_node"], geo["u_perp"]
+        r = np.hypot(u0, u1)
+        vr = (u0 * dv[0] + u1 * dv[1]) / r
+        vlon = (u0 * dv[1] - u1 * dv[0]) / r**2
+    else:
+        geo = interp(t)
+        r = np.hypot(geo["u_node"], geo["u_perp"])
+        vr = interp.radial_velocity(t)
+        vlon = interp.longitude_rate(t)
+    lon = np.degrees(np.arctan2(geo["u_perp"], geo["u_node"])) % 360.0
+    pole = np.degrees(np.arctan2(geo["pole_sin"], geo["pole_cos"])) % 360.0 \
+        if "pole_sin" in geo else np.degrees(geo["pole_angle"]) % 360.0
+
+    track = Track(
+        body=body, observer=observer, star=star, tdb_s=t,
+        ring_radius_km=r, ring_longitude_deg=lon, radial_velocity_km_s=vr,
+        longitude_rate_deg_s=np.degrees(vlon),
+        sky_f_km=geo["sky_f"], sky_g_km=geo["sky_g"],
+        opening_angle_deg=np.degrees(geo["opening_angle"]),
+        star_elevation_deg=np.degrees(geo["star_elevation"]),
+        pole_position_angle_deg=pole, distance_km=geo["distance"],
+        behind_planet=geo["limb"] < 0.0, interp=interp,
+    )
+    _find_events(track, interp, body, nodes, t)
+    track.meta = track_meta(eph, body, observer, star, corrections, node_geo, t, node_step_s,
+                            exact)
+    return track
+
+
+def _check_edge_on(geo):
+    worst_b = np.degrees(np.min(np.abs(geo["opening_angle"])))
+    worst_bs = np.degrees(np.min(np.abs(geo["star_elevation"])))
+    worst = min(worst_b, worst_bs)
+    if worst < EDGE_ON_LIMIT_DEG:
+        raise GeometryError(
+            f"the rings are nearly edge-on in this window (|B| = {worst:.4f} deg < "
+            f"{EDGE_ON_LIMIT_DEG} deg): the ring-plane chord is undefined there; choose "
+            "another window"
+        )
+
+
+def _find_events(track: Track, interp: _Interpolant, body, nodes, t):
+    """Closest approach, boundary crossings and region passes, by root finding."""
+    t0, t1 = t[0], t[-1]
+    grid = np.union1d(nodes[(nodes >= t0) & (nodes <= t1)], [t0, t1])
+    # Closest approach: dr/dt = 0 with r at a minimum.
+    mins = [x for x in _roots(interp.radial_velocity, grid)
+            if interp.radial_velocity(np.array([x - 1e-3]))[0] < 0]
+    candidates = mins + [t0, t1]
+    radii = interp.radius(np.array(candidates))
+    k = int(np.argmin(radii))
+    track.closest_approach_s = float(candidates[k])
+    track.closest_approach_radius_km = float(radii[k])
+    track.closest_approach_at_edge = k >= len(mins)
+    ca = track.closest_approach_s
+
+    crossings = []
+    for reg in body.rings:
+        for edge, radius in (("inner", reg.inner_km), ("outer", reg.outer_km)):
+            for x in _roots(lambda tt, R=radius: interp.radius(tt) - R, grid):
+                v = float(interp.radial_velocity(np.array([x]))[0])
+                crossings.append(Crossing(
+                    boundary_km=radius, region=reg.name, edge=edge, tdb_s=x,
+                    side="ingress" if x < ca else "egress", radial_velocity_km_s=v,
+                    behind_planet=bool(interp.limb(np.array([x]))[0] < 0),
+                ))
+    crossings.sort(key=lambda c: c.tdb_s)
+    track.crossings = crossings
+
+    passes = []
+    for reg in body.rings:
+        times = sorted(c.tdb_s for c in crossings if c.region == reg.name)
+        r_start = interp.radius(np.array([t0]))[0]
+        inside = reg.inner_km <= r_start < reg.outer_km
+        edges = [t0] + times + [t1]
+        for a, b in zip(edges[:-1], edges[1:]):
+            if inside:
+                # split a passage that spans the closest approach into its two sides
+                pieces = [(a, ca), (ca, b)] if a < ca < b else [(a, b)]
+                for pa, pb in pieces:
+                    passes.append(RegionPass(
+                        region=reg.name, side="ingress" if pb <= ca else "egress",
+                        start_s=pa, end_s=pb,
+                        clipped=(pa == t0 or pb == t1),
+                    ))
+            inside = not inside
+    passes.sort(key=lambda p: p.start_s)
+    track.passes = passes
+
+
+def track_meta(eph, body, observer, star, corrections, node_geo, t, node_step_s, exact):
+    """Output metadata: inputs, kernels, corrections applied, aspect at mid-window."""
+    mid = len(node_geo["distance"]) // 2
+    if corrections.barycentre_only:
+        centre = "system barycentre (uncorrected)"
+        residual = None
+    elif eph.planet_centre_source(body) == "kernel":
+        centre = "planet centre from user kernel"
+        residual = 0.0
+    else:
+        from .mean_orbits import correction_residual_km
+
+        centre = "barycentre corrected by satellite mean orbits"
+        residual = float(correction_residual_km(body))
+    return {
+        "occplan_version": __version__,
+        "body": body.name,
+        "body_file": body.path,
+        "observer": observer.describe(),
+        "star": star.describe(),
+        "start_utc": utc_iso(time_from_tdb_s(t[0])),
+        "end_utc": utc_iso(time_from_tdb_s(t[-1])),
+        "samples": int(t.size),
+        "kernels": [k["file"] for k in eph.kernels()],
+        "corrections": {
+            "light_time": "iterated to the ring-plane intercept",
+            "aberration": "none (astrometric star and planet)",
+            "planet_deflection": bool(corrections.deflection),
+            "planet_centre": centre,
+            "planet_centre_residual_km": residual,
+        },
+        "interpolation": "exact at every sample" if exact else f"cubic spline on {node_step_s:g} s nodes",
+        "opening_angle_deg": float(np.degrees(node_geo["opening_angle"][mid])),
+        "star_elevation_deg": float(np.degrees(node_geo["star_elevation"][mid])),
+        "pole_position_angle_deg": float(np.degrees(node_geo["pole_angle"][mid]) % 360.0),
+        "distance_km": float(node_geo["distance"][mid]),
+        "frame": "ICRF; ring longitude from the ascending node of the ring plane on the ICRF equator",
+    }
