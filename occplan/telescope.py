@@ -1,0 +1,202 @@
+"""Telescope profiles: the instrument a candidate event is evaluated for.
+
+A profile is a small TOML file (``occplan/data/telescope_default.toml`` is the default and the
+template); a user file may give any subset of its keys, the rest come from the default.
+Keys (units in the names): name, aperture_m, central_obstruction (fraction of the diameter),
+throughput (optics x filter x quantum efficiency, 0..1], read_noise_e (per pixel, rms),
+dark_e_s (per pixel), pixel_scale_arcsec, aperture_radius_arcsec (photometric aperture),
+cadence_s (sampling interval), dead_time_s (readout gap in each sample), band,
+samples_per_wavelength (4 by default; 2 is the Nyquist bound), and an optional ``[source]``
+table of strings saying where each value comes from.
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from dataclasses import asdict, dataclass, field, fields, replace
+from importlib import resources
+from pathlib import Path
+
+from .errors import DataFileError, InputError
+
+
+@dataclass(frozen=True)
+class TelescopeProfile:
+    """A telescope and camera (frozen; use :func:`load_telescope` with overrides to change)."""
+
+    name: str
+    aperture_m: float
+    central_obstruction: float
+    throughput: float
+    read_noise_e: float
+    dark_e_s: float
+    pixel_scale_arcsec: float
+    aperture_radius_arcsec: float
+    cadence_s: float
+    dead_time_s: float
+    band: str
+    samples_per_wavelength: float
+    sources: dict = field(default_factory=dict, compare=False, hash=False)
+    path: str = ""
+
+    @property
+    def exposure_s(self) -> float:
+        """Integration time per sample: cadence minus dead time."""
+        return self.cadence_s - self.dead_time_s
+
+    @property
+    def n_pixels(self) -> float:
+        """Pixels inside the photometric aperture: pi r^2 / pixel_scale^2."""
+        return math.pi * self.aperture_radius_arcsec ** 2 / self.pixel_scale_arcsec ** 2
+
+    @property
+    def collecting_area_m2(self) -> float:
+        """Clear area pi/4 D^2 (1 - eps^2)."""
+        return math.pi / 4.0 * self.aperture_m ** 2 * (1.0 - self.central_obstruction ** 2)
+
+    def describe(self) -> dict:
+        d = asdict(self)
+        d.pop("sources")
+        d.update(exposure_s=self.exposure_s, n_pixels=self.n_pixels,
+                 collecting_area_m2=self.collecting_area_m2)
+        return d
+
+
+_NUMERIC = ("aperture_m", "central_obstruction", "throughput", "read_noise_e", "dark_e_s",
+            "pixel_scale_arcsec", "aperture_radius_arcsec", "cadence_s", "dead_time_s",
+            "samples_per_wavelength")
+ALLOWED_KEYS = ("name",) + _NUMERIC + ("band", "source")
+
+
+def _read_toml(text: str, where: str) -> dict:
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise DataFileError(f"telescope file {where} is not valid TOML: {exc}") from None
+
+
+def _check_keys(data: dict, where: str) -> None:
+    for key in data:
+        if key not in ALLOWED_KEYS:
+            raise DataFileError(f"telescope file {where}: unknown key {key!r}; allowed keys are "
+                                f"{', '.join(ALLOWED_KEYS)}")
+
+
+def _validate(p: TelescopeProfile) -> TelescopeProfile:
+    from .photometry import band
+
+    def bad(key, rule):
+        raise InputError(f"telescope {key} = {getattr(p, key)!r} is invalid: {rule}")
+
+    for key in _NUMERIC:
+        v = getattr(p, key)
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
+            bad(key, "give a finite number")
+    if p.aperture_m <= 0:
+        bad("aperture_m", "the aperture diameter must be > 0 m")
+    if not 0 <= p.central_obstruction < 1:
+        bad("central_obstruction", "give the secondary's diameter as a fraction in [0, 1)")
+    if not 0 < p.throughput <= 1:
+        bad("throughput", "give the detected fraction of photons in (0, 1]")
+    for key in ("read_noise_e", "dark_e_s", "dead_time_s"):
+        if getattr(p, key) < 0:
+            bad(key, "must be >= 0")
+    for key in ("pixel_scale_arcsec", "aperture_radius_arcsec"):
+        if getattr(p, key) <= 0:
+            bad(key, "must be > 0 arcsec")
+    if p.cadence_s <= 0:
+        bad("cadence_s", "the sampling interval must be > 0 s")
+    if p.dead_time_s >= p.cadence_s:
+        bad("dead_time_s", f"must be shorter than the cadence ({p.cadence_s} s)")
+    if p.samples_per_wavelength < 2:
+        bad("samples_per_wavelength", "must be >= 2 (2 is the Nyquist bound)")
+    if p.aperture_radius_arcsec < p.pixel_scale_arcsec / 2:
+        bad("aperture_radius_arcsec", "the photometric aperture must cover at least one pixel")
+    band(p.band)  # UnknownNameError listing the known bands
+    return p
+
+
+def _build(data: dict, sources: dict, path: str) -> TelescopeProfile:
+    kwargs = {}
+    for f in fields(TelescopeProfile):
+        if f.name in ("sources", "path"):
+            continue
+        kwargs[f.name] = data[f.name]
+    for key in _NUMERIC:
+        v = kwargs[key]
+        if isinstance(v, bool) or not isinstance(v, (int, float)):
+            raise InputError(f"telescope {key} = {v!r} is invalid: give a number")
+        kwargs[key] = float(v)
+    kwargs["name"] = str(kwargs["name"])
+    kwargs["band"] = str(kwargs["band"])
+    return _validate(TelescopeProfile(**kwargs, sources=sources, path=path))
+
+
+def default_telescope_path() -> str:
+    return str(resources.files("occplan") / "data" / "telescope_default.toml")
+
+
+def load_telescope(path: str | Path | None = None, **overrides) -> TelescopeProfile:
+    """A telescope profile from the default file, a user TOML file, and keyword overrides.
+
+    Parameters
+    ----------
+    path : str or Path, optional
+        A TOML file with any subset of the keys of ``telescope_default.toml``; missing keys
+        keep the default values.
+    **overrides
+        Values that replace those of the file (e.g. ``aperture_m=2.0, band="K"``); ``None``
+        values are ignored, so command-line options can be passed straight through.
+
+    Raises
+    ------
+    DataFileError
+        File missing, not TOML, or with a key that is not a profile key.
+    InputError
+        A value out of range (aperture <= 0, throughput outside (0, 1], ...) or an unknown
+        override name.
+    UnknownNameError
+        An unknown band.
+    """
+    res = resources.files("occplan") / "data" / "telescope_default.toml"
+    data = _read_toml(res.read_text(encoding="utf-8"), "occplan/data/telescope_default.toml")
+    sources = dict(data.pop("source", {}))
+    where = ""
+    if path is not None:
+        p = Path(path)
+        where = str(p)
+        if not p.is_file():
+            raise DataFileError(f"telescope file {where!r} not found")
+        user = _read_toml(p.read_text(encoding="utf-8"), repr(where))
+        _check_keys(user, repr(where))
+        user_sources = user.pop("source", {})
+        if not isinstance(user_sources, dict):
+            user_sources = {"file": str(user_sources)}
+        for key in user:
+            sources[key] = user_sources.get(key, f"user file {where}")
+        data.update(user)
+    for key, value in overrides.items():
+        if value is None:
+            continue
+        if key not in ALLOWED_KEYS or key == "source":
+            raise InputError(f"unknown telescope setting {key!r}; allowed: "
+                             f"{', '.join(k for k in ALLOWED_KEYS if k != 'source')}")
+        data[key] = value
+        sources[key] = "override"
+    return _build(data, sources, where)
+
+
+def with_overrides(profile: TelescopeProfile, **overrides) -> TelescopeProfile:
+    """A copy of ``profile`` with some values replaced (validated; ``None`` ignored)."""
+    changes = {k: v for k, v in overrides.items() if v is not None}
+    for key in changes:
+        if key not in ALLOWED_KEYS or key == "source":
+            raise InputError(f"unknown telescope setting {key!r}")
+    for key in _NUMERIC:
+        if key in changes:
+            v = changes[key]
+            if isinstance(v, bool) or not isinstance(v, (int, float)):
+                raise InputError(f"telescope {key} = {v!r} is invalid: give a number")
+            changes[key] = float(v)
+    return _validate(replace(profile, **changes))
