@@ -45,13 +45,13 @@ from .bodies import Body, MeanElements, Satellite, get_body
 from .errors import DataFileError
 
 __all__ = [
-    "solve_kepler",
+    "ELEMENT_RELATIVE_ERROR",
+    "barycentre_offset_km",
+    "correction_residual_km",
     "elements_position_km",
     "satellite_positions_km",
-    "barycentre_offset_km",
+    "solve_kepler",
     "system_gm_km3_s2",
-    "correction_residual_km",
-    "ELEMENT_RELATIVE_ERROR",
 ]
 
 # Position error of a mean (precessing-ellipse) orbit, as a fraction of the semimajor axis.

@@ -1,5 +1,6 @@
 """The built-in body catalog: every file loads, is sourced, ordered and self-consistent."""
 
+import itertools
 import math
 from importlib import resources
 
@@ -46,7 +47,7 @@ def test_every_table_has_a_source(name):
 @pytest.mark.parametrize("name", BODIES)
 def test_ring_regions_ordered_and_disjoint(name):
     rings = get_body(name).rings
-    for inner, outer in zip(rings[:-1], rings[1:]):
+    for inner, outer in itertools.pairwise(rings):
         # Adjacent regions may touch (shared boundary) but must not overlap.
         assert inner.outer_km <= outer.inner_km, f"{inner.name} overlaps {outer.name}"
     for ring in rings:
@@ -153,7 +154,7 @@ def test_bad_body_files(tmp_path):
     with pytest.raises(DataFileError, match="inner_km < outer_km"):
         get_body(str(flipped))
     extra = tmp_path / "extra.toml"
-    extra.write_text(text.replace("epoch_jd_tdb = 2451545.0", "epoch_jd_tdb = 2451545.0\nfoo = 1", 1),
-                     encoding="utf-8")
+    bad_key = text.replace("epoch_jd_tdb = 2451545.0", "epoch_jd_tdb = 2451545.0\nfoo = 1", 1)
+    extra.write_text(bad_key, encoding="utf-8")
     with pytest.raises(DataFileError):
         get_body(str(extra))
