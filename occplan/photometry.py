@@ -487,6 +487,10 @@ def scintillation_sigma(aperture_m, airmass, altitude_m, exposure_s):
     return 0.09 * d_cm ** (-2.0 / 3.0) * x ** 1.75 * np.exp(-h / 8000.0) / np.sqrt(2.0 * t)
 
 
+SCINT_BACKGROUND_NOTE = ("scintillation applied to star + background (conservative: an "
+                         "extended background scintillates less than the star)")
+
+
 @dataclass(frozen=True)
 class SNRTerms:
     """A noise budget: signal and each noise term in electrons for ``samples`` exposures.
@@ -586,9 +590,10 @@ def snr_per_sample(star_rate_e_s, background_rate_e_s, exposure_s, *, read_noise
     total = np.sqrt(star + bg + read ** 2 + dark ** 2 + scint ** 2)
     with np.errstate(divide="ignore", invalid="ignore"):
         snr = np.where(total > 0, star / np.where(total > 0, total, 1.0), 0.0)
-    notes = (("scintillation applied to star + background (conservative: an extended "
-              "background scintillates less than the star)",) if scintillate_background
-             else ("scintillation applied to the star only",))
+    if scintillate_background:
+        notes = (SCINT_BACKGROUND_NOTE,)
+    else:
+        notes = ("scintillation applied to the star only",)
     return SNRTerms(1.0, t, _scalar(star), _scalar(bg), _scalar(np.sqrt(star)),
                     _scalar(np.sqrt(bg)), _scalar(read + 0 * star), _scalar(dark + 0 * star),
                     _scalar(scint), _scalar(total), _scalar(snr), _scalar(sig), npix, notes)

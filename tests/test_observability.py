@@ -158,7 +158,10 @@ def test_no_sun_caution_in_a_dark_window(eph, saturn):
 
 def _made_up(sun_alt, planet_alt, moon_sep, moon_illum, moon_alt=30.0):
     n = len(sun_alt)
-    f = lambda v: np.asarray(v, dtype=float) * np.ones(n)  # noqa: E731
+
+    def f(v):
+        return np.asarray(v, dtype=float) * np.ones(n)
+
     return ob.ObservingConditions(
         True, SITE.describe(), np.arange(n, dtype=float), f(planet_alt), f(0.0),
         ob.airmass_kasten_young(f(planet_alt)), f(sun_alt), ob.sun_category(f(sun_alt)),

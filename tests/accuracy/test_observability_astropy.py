@@ -38,9 +38,9 @@ def astropy_offline():
     from astropy.coordinates import solar_system_ephemeris
     from astropy.utils import iers
 
-    with iers.conf.set_temp("auto_download", False), iers.conf.set_temp("auto_max_age", None):
-        with solar_system_ephemeris.set(de421_path()):
-            yield
+    with (iers.conf.set_temp("auto_download", False), iers.conf.set_temp("auto_max_age", None),
+          solar_system_ephemeris.set(de421_path())):
+        yield
 
 
 def _astropy_reference(lat, lon, height, iso):
