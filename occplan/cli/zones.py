@@ -1,0 +1,70 @@
+"""`occplan zones`: predicted resonance zones of a body over a radius range (thin layer)."""
+
+from __future__ import annotations
+
+from typing import Annotated, Optional
+
+import typer
+
+from .. import __version__
+from ..bodies import get_body
+from ..resonances import DEFAULT_MAX_M, find_resonances
+from ..tables import check_format, check_out, emit, render
+from . import options as o
+
+COLUMNS = ["strong", "label", "satellite", "kind", "wave", "m", "order", "resonance_radius_km",
+           "torque_per_sigma", "region", "propagation", "zone_inner_km", "zone_outer_km",
+           "shortest_wavelength_km"]
+
+
+def register(app: typer.Typer) -> None:
+    @app.command("zones")
+    @o.user_errors
+    def zones(
+        body: o.Body = "saturn",
+        rmin: Annotated[Optional[float], typer.Option("--rmin", help="Inner radius, km (default: the innermost ring region).")] = None,
+        rmax: Annotated[Optional[float], typer.Option("--rmax", help="Outer radius, km (default: the outermost ring region).")] = None,
+        max_order: Annotated[int, typer.Option("--max-order", help="Highest resonance order, 1 to 3.")] = 3,
+        max_m: Annotated[int, typer.Option("--max-m", help="Highest azimuthal wavenumber m.")] = DEFAULT_MAX_M,
+        satellite: Annotated[Optional[list[str]], typer.Option("--satellite", help="Only this satellite (repeatable).")] = None,
+        min_torque: Annotated[Optional[float], typer.Option("--min-torque", help="Drop resonances whose torque per unit surface density is below this, cm^4 s^-2.")] = None,
+        sigma: Annotated[Optional[float], typer.Option("--sigma", help="Ring surface density, g/cm^2, for every region (default: each region's typical value).")] = None,
+        viscosity: Annotated[Optional[float], typer.Option("--viscosity", help="Ring kinematic viscosity, cm^2/s, for wave damping (default: each region's value).")] = None,
+        strongest: Annotated[int, typer.Option("--strongest", help="Mark this many of the strongest resonances (column 'strong').")] = 20,
+        fmt: o.Format = "table", out: o.Out = None, overwrite: o.Overwrite = False,
+    ):
+        """List satellite resonances in the rings: radius, strength and wave zone, by radius.
+
+        Example: occplan zones --body saturn --rmin 120000 --rmax 137000 --max-order 2
+        """
+        fmt = check_format(fmt)
+        check_out(out, overwrite)
+        b = get_body(body)
+        res = find_resonances(b, rmin_km=rmin, rmax_km=rmax, max_order=max_order,
+                              satellites=satellite, min_torque=min_torque, sigma_g_cm2=sigma,
+                              viscosity_cm2_s=viscosity, max_m=max_m)
+        rows = [x.to_row() for x in res]
+        ranked = sorted(range(len(rows)), key=lambda i: -rows[i]["torque_per_sigma"])
+        top = set(ranked[:max(strongest, 0)])
+        for i, row in enumerate(rows):
+            row["strong"] = i in top
+        meta = {
+            "occplan_version": __version__, "body": b.name, "body_file": b.path,
+            "gravity_source": b.sources.get("gravity", ""),
+            "rmin_km": rmin if rmin is not None else b.inner_ring_km,
+            "rmax_km": rmax if rmax is not None else b.outer_ring_km,
+            "max_order": max_order, "max_m": max_m,
+            "satellites": list(satellite) if satellite else [s.name for s in b.satellites],
+            "min_torque": min_torque, "sigma_override_g_cm2": sigma,
+            "viscosity_override_cm2_s": viscosity,
+            "units": {"torque_per_sigma": "cm4 / s2 (torque in dyn cm per g cm^-2)"},
+            "strongest_marked": strongest,
+        }
+        header = (f"# {b.name}: {len(rows)} resonances, order <= {max_order}, m <= {max_m}; "
+                  f"torque_per_sigma in cm^4 s^-2; strong = the {strongest} strongest\n")
+        if fmt == "table":
+            for row in rows:
+                row["strong"] = "*" if row["strong"] else ""
+                row["torque_per_sigma"] = f"{row['torque_per_sigma']:.2e}"
+        emit(render(rows, meta, fmt, COLUMNS if fmt == "table" else None,
+                    header if fmt == "table" else None), out, overwrite)
