@@ -18,7 +18,7 @@ For reception times t at the observer O(t) (barycentric ICRF, km; TDB Julian dat
    Opening angle B = asin(n.(O-P)/|O-P|); star elevation B* = asin(n.s); pole position
    angle P = atan2(n.f, n.g) (from north through east).
 
-Speed: the exact geometry is evaluated on coarse nodes (60 s by default) and the smooth
+Speed: the exact geometry is evaluated on coarse nodes (120 s by default) and the smooth
 quantities (in-plane components of rho, sky-plane offsets, angles, distance, limb function)
 are interpolated with cubic splines; derivatives (radial velocity, longitude rate) come from
 the splines, not from finite differences.  ``tests/test_geometry.py`` measures the
@@ -40,7 +40,7 @@ from .errors import GeometryError, InputError
 
 EDGE_ON_LIMIT_DEG = 0.01
 LIGHT_TIME_PASSES = 3
-DEFAULT_NODE_STEP_S = 60.0
+DEFAULT_NODE_STEP_S = 120.0
 _Z = np.array([0.0, 0.0, 1.0])
 
 
@@ -223,10 +223,14 @@ class Track:
 
 
 class _Interpolant:
-    """Cubic splines of the smooth exact quantities on time nodes (seconds from t0)."""
+    """Cubic splines of the smooth exact quantities on time nodes (seconds from t0).
 
-    KEYS = ("u_node", "u_perp", "sky_f", "sky_g", "opening_angle", "star_elevation",
-            "pole_cos", "pole_sin", "distance", "limb")
+    The in-plane components of rho get a spline of their own: root finding and the radial
+    velocity only need those two rows.
+    """
+
+    KEYS = ("sky_f", "sky_g", "opening_angle", "star_elevation", "pole_cos", "pole_sin",
+            "distance", "limb")
 
     def __init__(self, node_s, exact):
         self.t0 = float(node_s[0])
@@ -234,46 +238,64 @@ class _Interpolant:
         values = dict(exact)
         values["pole_cos"] = np.cos(exact["pole_angle"])
         values["pole_sin"] = np.sin(exact["pole_angle"])
-        stack = np.vstack([values[k] for k in self.KEYS])
-        self.spline = CubicSpline(x, stack, axis=1)
-        self.deriv = self.spline.derivative()
-        self.x_range = (x[0], x[-1])
+        self.plane = CubicSpline(x, np.vstack([exact["u_node"], exact["u_perp"]]), axis=1)
+        self.plane_deriv = self.plane.derivative()
+        self.other = CubicSpline(x, np.vstack([values[k] for k in self.KEYS]), axis=1)
+        self.limb_spline = CubicSpline(x, exact["limb"])
 
     def seconds(self, tdb_s):
         return np.asarray(tdb_s, dtype=float) - self.t0
 
     def __call__(self, tdb_s):
-        v = self.spline(self.seconds(tdb_s))
-        return dict(zip(self.KEYS, v))
+        x = self.seconds(tdb_s)
+        out = dict(zip(self.KEYS, self.other(x)))
+        out["u_node"], out["u_perp"] = self.plane(x)
+        return out
+
+    def in_plane(self, tdb_s):
+        """(u, du/dt) for the two in-plane components, shape (2, N) each."""
+        x = self.seconds(tdb_s)
+        return self.plane(x), self.plane_deriv(x)
 
     def radius(self, tdb_s):
-        v = self.spline(self.seconds(tdb_s))
+        v = self.plane(self.seconds(tdb_s))
         return np.hypot(v[0], v[1])
 
     def radial_velocity(self, tdb_s):
-        x = self.seconds(tdb_s)
-        v, dv = self.spline(x), self.deriv(x)
-        r = np.hypot(v[0], v[1])
-        return (v[0] * dv[0] + v[1] * dv[1]) / r
+        v, dv = self.in_plane(tdb_s)
+        return (v[0] * dv[0] + v[1] * dv[1]) / np.hypot(v[0], v[1])
 
     def longitude_rate(self, tdb_s):
-        x = self.seconds(tdb_s)
-        v, dv = self.spline(x), self.deriv(x)
+        v, dv = self.in_plane(tdb_s)
         return (v[0] * dv[1] - v[1] * dv[0]) / (v[0] ** 2 + v[1] ** 2)
 
     def limb(self, tdb_s):
-        return self.spline(self.seconds(tdb_s))[9]
+        return self.limb_spline(self.seconds(tdb_s))
 
 
-def _roots(func, grid_s):
-    """All sign changes of func on a grid, refined by Brent's method (TDB s)."""
-    vals = func(grid_s)
-    idx = np.nonzero(np.sign(vals[:-1]) * np.sign(vals[1:]) < 0)[0]
-    out = []
-    for i in idx:
-        a, b = grid_s[i], grid_s[i + 1]
-        out.append(brentq(lambda x: float(func(np.array([x]))[0]), a, b, xtol=1e-6, rtol=1e-15))
-    return out
+def _refine(func, dfunc, guesses, lo, hi, passes=3):
+    """Newton refinement of roots of func (vectorized), kept inside [lo, hi]."""
+    x = np.asarray(guesses, dtype=float)
+    for _ in range(passes):
+        if x.size == 0:
+            break
+        x = np.clip(x - func(x) / dfunc(x), lo, hi)
+    return x
+
+
+def _crossing_times(interp, node_s, r_nodes, radius_km, t0, t1):
+    """Times in [t0, t1] where r(t) = radius_km.
+
+    Brackets are the node intervals where r - radius_km changes sign; the linear-interpolation
+    guess in each is refined by Newton's method on the interpolated r(t) = |u(t)| with dr/dt
+    from the splines (quadratic convergence: four passes reach microseconds).
+    """
+    f = r_nodes - radius_km
+    i = np.nonzero(np.sign(f[:-1]) * np.sign(f[1:]) < 0)[0]
+    x = node_s[i] + (node_s[i + 1] - node_s[i]) * f[i] / (f[i] - f[i + 1])
+    x = _refine(lambda tt: interp.radius(tt) - radius_km, interp.radial_velocity, x,
+                node_s[i], node_s[i + 1], passes=4)
+    return x[(x >= t0) & (x <= t1)]
 
 
 def window_times(start_s: float, end_s: float, step_s: float) -> np.ndarray:
@@ -327,21 +349,17 @@ def compute_track(eph, body, observer, star, tdb_s, corrections: Corrections = C
     if exact:
         geo = exact_geometry(eph, body, observer, star, t, corrections)
         geo["pole_cos"], geo["pole_sin"] = np.cos(geo["pole_angle"]), np.sin(geo["pole_angle"])
-        x = interp.seconds(t)
-        dv = interp.deriv(x)
         # Derivatives: from the node splines even in exact mode (no finite differences).
-        u0, u1 = geo["u_node"], geo["u_perp"]
-        r = np.hypot(u0, u1)
-        vr = (u0 * dv[0] + u1 * dv[1]) / r
-        vlon = (u0 * dv[1] - u1 * dv[0]) / r**2
+        _, dv = interp.in_plane(t)
+        v = np.vstack([geo["u_node"], geo["u_perp"]])
     else:
         geo = interp(t)
-        r = np.hypot(geo["u_node"], geo["u_perp"])
-        vr = interp.radial_velocity(t)
-        vlon = interp.longitude_rate(t)
+        v, dv = interp.in_plane(t)
+    r = np.hypot(v[0], v[1])
+    vr = (v[0] * dv[0] + v[1] * dv[1]) / r
+    vlon = (v[0] * dv[1] - v[1] * dv[0]) / r**2
     lon = np.degrees(np.arctan2(geo["u_perp"], geo["u_node"])) % 360.0
-    pole = np.degrees(np.arctan2(geo["pole_sin"], geo["pole_cos"])) % 360.0 \
-        if "pole_sin" in geo else np.degrees(geo["pole_angle"]) % 360.0
+    pole = np.degrees(np.arctan2(geo["pole_sin"], geo["pole_cos"])) % 360.0
 
     track = Track(
         body=body, observer=observer, star=star, tdb_s=t,
@@ -374,10 +392,18 @@ def _check_edge_on(geo):
 def _find_events(track: Track, interp: _Interpolant, body, nodes, t):
     """Closest approach, boundary crossings and region passes, by root finding."""
     t0, t1 = t[0], t[-1]
-    grid = np.union1d(nodes[(nodes >= t0) & (nodes <= t1)], [t0, t1])
-    # Closest approach: dr/dt = 0 with r at a minimum.
-    mins = [x for x in _roots(interp.radial_velocity, grid)
-            if interp.radial_velocity(np.array([x - 1e-3]))[0] < 0]
+    r_nodes = interp.radius(nodes)
+    # Closest approach: minimum of r^2 = u.u, i.e. a - to + sign change of u.du/dt (smooth even
+    # where r passes near zero), refined by Brent's method.
+    def half_dr2(tt):
+        v, dv = interp.in_plane(np.atleast_1d(tt))
+        return v[0] * dv[0] + v[1] * dv[1]
+
+    grid = np.union1d(nodes[(nodes > t0) & (nodes < t1)], [t0, t1])
+    g = half_dr2(grid)
+    idx = np.nonzero((g[:-1] < 0) & (g[1:] >= 0))[0]
+    mins = [brentq(lambda tt: float(half_dr2(tt)[0]), grid[i], grid[i + 1], xtol=1e-6)
+            for i in idx]
     candidates = mins + [t0, t1]
     radii = interp.radius(np.array(candidates))
     k = int(np.argmin(radii))
@@ -389,12 +415,14 @@ def _find_events(track: Track, interp: _Interpolant, body, nodes, t):
     crossings = []
     for reg in body.rings:
         for edge, radius in (("inner", reg.inner_km), ("outer", reg.outer_km)):
-            for x in _roots(lambda tt, R=radius: interp.radius(tt) - R, grid):
-                v = float(interp.radial_velocity(np.array([x]))[0])
+            roots = _crossing_times(interp, nodes, r_nodes, radius, t0, t1)
+            speeds = interp.radial_velocity(roots)
+            hidden = interp.limb(roots) < 0
+            for x, v, hid in zip(roots, speeds, hidden):
                 crossings.append(Crossing(
                     boundary_km=radius, region=reg.name, edge=edge, tdb_s=x,
-                    side="ingress" if x < ca else "egress", radial_velocity_km_s=v,
-                    behind_planet=bool(interp.limb(np.array([x]))[0] < 0),
+                    side="ingress" if x < ca else "egress", radial_velocity_km_s=float(v),
+                    behind_planet=bool(hid),
                 ))
     crossings.sort(key=lambda c: c.tdb_s)
     track.crossings = crossings
