@@ -103,9 +103,13 @@ def test_interpolation_error_against_exact(eph, saturn):
     times = window_times(T_MID - 6 * 3600, T_MID + 6 * 3600, 7.0)
     fast = compute_track(eph, saturn, site, star, times)
     exact = compute_track(eph, saturn, site, star, times, exact=True)
-    assert np.max(np.abs(fast.ring_radius_km - exact.ring_radius_km)) < 1e-3
+    # Behind the limb the 1/b deflection makes the (virtual) radius less smooth; there the
+    # star is hidden and the figure does not apply.
+    vis = ~exact.behind_planet
+    assert vis.sum() > 1000 and exact.behind_planet.sum() > 100
+    assert np.max(np.abs(fast.ring_radius_km - exact.ring_radius_km)[vis]) < 1e-3
     dlon = (fast.ring_longitude_deg - exact.ring_longitude_deg + 180) % 360 - 180
-    assert np.max(np.abs(np.radians(dlon)) * exact.ring_radius_km) < 1e-3
+    assert np.max((np.abs(np.radians(dlon)) * exact.ring_radius_km)[vis]) < 1e-3
 
 
 def test_radial_velocity_is_the_derivative_of_radius(eph, saturn):
