@@ -374,6 +374,17 @@ def background_rate(band_name, aperture_m, throughput, aperture_radius_arcsec,
         ``evaluated`` is False (rate 0, a note says why) when no reflectance is known for a
         component that covers part of the aperture and no sky brightness was given.
 
+    Body file layout read here (values per band, each table with its ``source``)::
+
+        [photometry.ring_reflectivity_if]
+        V = 0.4
+        source = "..."
+        [photometry.planet_geometric_albedo]
+        V = 0.5
+        source = "..."
+
+    A plain number instead of a table applies to every band.
+
     Notes
     -----
     Rate = N0 10^(-0.4 mu) x area_arcsec2 x fill x A x tau per component, mu from
