@@ -26,16 +26,16 @@ from .bodies import Body, Satellite
 from .constants import SECONDS_PER_DAY
 
 __all__ = [
-    "mean_motion_rad_s",
-    "epicyclic_rad_s",
-    "vertical_rad_s",
     "apsidal_rate_rad_s",
-    "nodal_rate_rad_s",
+    "epicyclic_rad_s",
     "frequencies",
     "frequency_radial_derivatives",
-    "satellite_rates_rad_s",
     "laplace_coefficient",
     "laplace_coefficient_derivative",
+    "mean_motion_rad_s",
+    "nodal_rate_rad_s",
+    "satellite_rates_rad_s",
+    "vertical_rad_s",
 ]
 
 

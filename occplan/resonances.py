@@ -44,14 +44,26 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .bodies import Body, get_body
+from .bodies import get_body
 from .constants import GRAVITATIONAL_CONSTANT_KM3_KG_S2, SECONDS_PER_DAY
-from .dynamics import (frequencies, frequency_radial_derivatives, satellite_rates_rad_s,
-                       separation_coefficient)
+from .dynamics import (
+    frequencies,
+    frequency_radial_derivatives,
+    satellite_rates_rad_s,
+    separation_coefficient,
+)
 from .errors import InputError
 
-__all__ = ["Resonance", "find_resonances", "resonance_terms", "forcing_potentials",
-           "torque_per_sigma", "wave_zones", "MAX_ORDER", "DEFAULT_MAX_M"]
+__all__ = [
+    "DEFAULT_MAX_M",
+    "MAX_ORDER",
+    "Resonance",
+    "find_resonances",
+    "forcing_potentials",
+    "resonance_terms",
+    "torque_per_sigma",
+    "wave_zones",
+]
 
 MAX_ORDER = 3
 DEFAULT_MAX_M = 200
@@ -138,7 +150,7 @@ def resonance_terms(max_order: int = MAX_ORDER):
     """
     terms = []
     for q in range(1, max_order + 1):
-        for p in range(0, q + 1):
+        for p in range(q + 1):
             k = q - 1 - p  # Lindblad / vertical: q = k + p + 1
             if k >= 0:
                 kind_in, kind_out = ("ILR", "OLR") if p % 2 == 0 else ("IVR", "OVR")
@@ -198,7 +210,8 @@ def _kepler(mean_anomaly, e):
     big_e = mean_anomaly + ecc * np.sin(mean_anomaly)
     for _ in range(8):
         big_e = big_e - (big_e - ecc * np.sin(big_e) - mean_anomaly) / (1 - ecc * np.cos(big_e))
-    true = 2.0 * np.arctan2(np.sqrt(1 + ecc) * np.sin(big_e / 2), np.sqrt(1 - ecc) * np.cos(big_e / 2))
+    half = big_e / 2.0
+    true = 2.0 * np.arctan2(np.sqrt(1 + ecc) * np.sin(half), np.sqrt(1 - ecc) * np.cos(half))
     phi = np.angle(np.exp(1j * (true - mean_anomaly)))
     return 1.0 - ecc * np.cos(big_e), phi
 
@@ -417,7 +430,7 @@ def corotation_half_width_km(phi, r, n, r_dn2, kappa):
 
 # --- edges ----------------------------------------------------------------------------------
 
-def mark_edges(body, res, edge_distance_km=EDGE_DISTANCE_KM):
+def mark_edges(body, res, edge_distance_km=EDGE_DISTANCE_KM, viscosity_cm2_s=None):
     """Indices of resonances that hold a ring-region edge, with the edge radius and region.
 
     A resonance is taken to hold an edge when all of these hold:
@@ -425,19 +438,23 @@ def mark_edges(body, res, edge_distance_km=EDGE_DISTANCE_KM):
     1. it is a first-order Lindblad resonance (k = p = 0): an ILR at the *outer* edge of a
        region or an OLR at the *inner* edge (the satellite pushes the ring away from itself);
     2. it lies within ``edge_distance_km`` (30 km) of that edge in the body file;
-    3. its torque exceeds a tenth of the ring's viscous angular-momentum flux,
-       T >= 0.1 * 3 pi nu_v sigma Omega r^2 (Borderies, Goldreich & Tremaine 1982 compare
-       the two; the factor 0.1 allows for the order-of-magnitude typical viscosity);
+    3. its torque exceeds a fraction of the ring's viscous angular-momentum flux,
+       T >= 0.05 * 3 pi nu_v sigma Omega r^2, with the edge region's typical viscosity (or
+       the ``viscosity_cm2_s`` override).  Borderies, Goldreich & Tremaine 1982 compare the
+       two; the factor 0.05 is a heuristic allowing for the order-of-magnitude viscosities
+       of the body files (with the Saturn file, Janus 7:6 reaches 0.095 of the A ring's
+       flux at nu = 100 cm^2/s, Mimas 2:1 1.5 times the B ring's);
     4. its neighbours of the same satellite (m +- 1) are farther apart than
        ``edge_distance_km`` (about (2/3) r / (m (m -+ 1))), so the match is not a chance
        one in a dense comb of resonances near a moon.
 
-    Examples this finds in the built-in files: Mimas 2:1 at the B ring outer edge and Janus
-    7:6 at the A ring outer edge.  Narrow eccentric rings whose body-file limits are radial
+    ``res`` holds (kind, m, k, p, r_km, torque_km4_s2, n_rad_s) tuples.  Examples this finds
+    in the built-in files: Mimas 2:1 at the B ring outer edge, Janus 7:6 at the A ring outer
+    edge, Cordelia 23:22 at the Uranian delta ring's outer edge.  Narrow eccentric rings whose body-file limits are radial
     envelopes (Uranus's epsilon ring) need edge semi-major axes in the body file to be found.
     """
     hits = []
-    for i, (kind, m, k, p, r, torque, nu_v, n) in enumerate(res):
+    for i, (kind, m, k, p, r, torque, n) in enumerate(res):
         if k != 0 or p != 0 or kind not in ("ILR", "OLR"):
             continue
         if kind == "ILR":
@@ -451,7 +468,8 @@ def mark_edges(body, res, edge_distance_km=EDGE_DISTANCE_KM):
             if abs(r - edge) > edge_distance_km:
                 continue
             sigma_kg_km2 = reg.surface_density_g_cm2 * G_CM2_TO_KG_KM2
-            flux_per_sigma = 3.0 * np.pi * reg.viscosity_cm2_s * CM2_S_TO_KM2_S * n * r**2
+            visc = reg.viscosity_cm2_s if viscosity_cm2_s is None else viscosity_cm2_s
+            flux_per_sigma = 3.0 * np.pi * visc * CM2_S_TO_KM2_S * n * r**2
             if torque >= EDGE_VISCOUS_FRACTION * flux_per_sigma and sigma_kg_km2 > 0:
                 hits.append((i, edge, reg.name))
                 break
@@ -576,8 +594,9 @@ def find_resonances(body, rmin_km=None, rmax_km=None, max_order=3, satellites=No
     zones = wave_zones(r, r_dd, sig, visc, np.where(wave == "bending", nu, kappa), prop_sign)
     half = corotation_half_width_km(phi, r, n, r_dn2, kappa)
 
+    candidates = list(zip(kind_i, m_i, k_i, p_i, r, torque, n, strict=True))
     edges = {i: (edge, name) for i, edge, name in mark_edges(
-        body, list(zip(kind_i, m_i, k_i, p_i, r, torque, visc, n)), edge_distance_km)}
+        body, candidates, edge_distance_km, viscosity_cm2_s)}
     to_deg_day = 180.0 / np.pi * SECONDS_PER_DAY
     out = []
     for i in range(r.size):
@@ -586,7 +605,8 @@ def find_resonances(body, rmin_km=None, rmax_km=None, max_order=3, satellites=No
             satellite=sats[sat_i[i]].name, kind=str(kind_i[i]), wave=str(wave[i]),
             m=int(m_i[i]), k=int(k_i[i]), p=int(p_i[i]),
             order=_order(kind_i[i], int(k_i[i]), int(p_i[i])),
-            resonance_radius_km=float(r[i]), pattern_speed_deg_day=float(pattern[i] * to_deg_day),
+            resonance_radius_km=float(r[i]),
+            pattern_speed_deg_day=float(pattern[i] * to_deg_day),
             torque_per_sigma=float(torque_cgs[i]),
             surface_density_g_cm2=float(sig[i]), region=str(region[i]),
             strength_method=str(method[i]),

@@ -7,9 +7,16 @@ import pytest
 from scipy.special import eval_legendre
 
 from occplan.bodies import get_body
-from occplan.dynamics import (apsidal_rate_rad_s, epicyclic_rad_s, frequencies,
-                              frequency_radial_derivatives, mean_motion_rad_s, nodal_rate_rad_s,
-                              satellite_rates_rad_s, vertical_rad_s)
+from occplan.dynamics import (
+    apsidal_rate_rad_s,
+    epicyclic_rad_s,
+    frequencies,
+    frequency_radial_derivatives,
+    mean_motion_rad_s,
+    nodal_rate_rad_s,
+    satellite_rates_rad_s,
+    vertical_rad_s,
+)
 
 SATURN = get_body("saturn")
 RADII_KM = np.array([67000.0, 74490.0, 92000.0, 117570.0, 136770.0, 140220.0])

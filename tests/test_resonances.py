@@ -10,8 +10,13 @@ from scipy.optimize import brentq
 from occplan.bodies import get_body
 from occplan.dynamics import frequencies, separation_coefficient
 from occplan.errors import InputError, UnknownNameError
-from occplan.resonances import (Resonance, find_resonances, forcing_potentials,
-                                resonance_terms, wave_zones)
+from occplan.resonances import (
+    Resonance,
+    find_resonances,
+    forcing_potentials,
+    resonance_terms,
+    wave_zones,
+)
 
 SATURN = get_body("saturn")
 G = 6.67430e-20
@@ -203,7 +208,7 @@ def test_damping_length_against_integrated_damping_rate():
                    np.array([kappa]), np.array([1.0]))
     g_sigma = G * sigma * 1e7
     ell2 = z["ell_km"][0] ** 2
-    k_i = lambda x: 7 / 3 * visc * 1e-10 * (x / ell2) ** 2 / (np.pi * g_sigma / kappa)  # noqa: E731
+    k_i = lambda x: 7 / 3 * visc * 1e-10 * (x / ell2) ** 2 / (np.pi * g_sigma / kappa)
     assert quad(k_i, 0, z["damping_length_km"][0])[0] == pytest.approx(1.0, rel=1e-10)
     x_end = z["zone_outer_km"][0] - r
     assert z["shortest_wavelength_km"][0] == pytest.approx(2 * np.pi * ell2 / x_end, rel=1e-12)

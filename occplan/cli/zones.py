@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Annotated, Optional
+from typing import Annotated
 
 import typer
 
@@ -22,14 +22,14 @@ def register(app: typer.Typer) -> None:
     @o.user_errors
     def zones(
         body: o.Body = "saturn",
-        rmin: Annotated[Optional[float], typer.Option("--rmin", help="Inner radius, km (default: the innermost ring region).")] = None,
-        rmax: Annotated[Optional[float], typer.Option("--rmax", help="Outer radius, km (default: the outermost ring region).")] = None,
+        rmin: Annotated[float | None, typer.Option("--rmin", help="Inner radius, km (default: the innermost ring region).")] = None,
+        rmax: Annotated[float | None, typer.Option("--rmax", help="Outer radius, km (default: the outermost ring region).")] = None,
         max_order: Annotated[int, typer.Option("--max-order", help="Highest resonance order, 1 to 3.")] = 3,
         max_m: Annotated[int, typer.Option("--max-m", help="Highest azimuthal wavenumber m.")] = DEFAULT_MAX_M,
-        satellite: Annotated[Optional[list[str]], typer.Option("--satellite", help="Only this satellite (repeatable).")] = None,
-        min_torque: Annotated[Optional[float], typer.Option("--min-torque", help="Drop resonances whose torque per unit surface density is below this, cm^4 s^-2.")] = None,
-        sigma: Annotated[Optional[float], typer.Option("--sigma", help="Ring surface density, g/cm^2, for every region (default: each region's typical value).")] = None,
-        viscosity: Annotated[Optional[float], typer.Option("--viscosity", help="Ring kinematic viscosity, cm^2/s, for wave damping (default: each region's value).")] = None,
+        satellite: Annotated[list[str] | None, typer.Option("--satellite", help="Only this satellite (repeatable).")] = None,
+        min_torque: Annotated[float | None, typer.Option("--min-torque", help="Drop resonances whose torque per unit surface density is below this, cm^4 s^-2.")] = None,
+        sigma: Annotated[float | None, typer.Option("--sigma", help="Ring surface density, g/cm^2, for every region (default: each region's typical value).")] = None,
+        viscosity: Annotated[float | None, typer.Option("--viscosity", help="Ring kinematic viscosity, cm^2/s, for wave damping (default: each region's value).")] = None,
         strongest: Annotated[int, typer.Option("--strongest", help="Mark this many of the strongest resonances (column 'strong').")] = 20,
         fmt: o.Format = "table", out: o.Out = None, overwrite: o.Overwrite = False,
     ):

@@ -6,8 +6,11 @@ import pytest
 from scipy.integrate import quad
 from scipy.special import ellipe, ellipk
 
-from occplan.dynamics import (laplace_coefficient, laplace_coefficient_derivative,
-                              separation_coefficient)
+from occplan.dynamics import (
+    laplace_coefficient,
+    laplace_coefficient_derivative,
+    separation_coefficient,
+)
 
 CASES = [(0.5, 0, 0.3), (0.5, 1, 0.63), (0.5, 2, 0.63), (0.5, 5, 0.8), (0.5, 30, 0.97),
          (1.5, 1, 0.5), (1.5, 7, 0.9), (1.5, 150, 0.99),
@@ -76,7 +79,7 @@ def test_outer_separation_coefficient():
     # for r > a the coefficient of (a/Delta)^(2s) is ratio^(-2s) b_s(1/ratio): check against
     # a direct quadrature of (a^2 / Delta^2)^s with a = 1 and r = ratio
     s, j, q = 0.5, 4, 1.3
-    f = lambda t: np.cos(j * t) / (q * q + 1 - 2 * q * np.cos(t)) ** s  # noqa: E731
+    f = lambda t: np.cos(j * t) / (q * q + 1 - 2 * q * np.cos(t)) ** s
     direct = quad(f, 0, np.pi, epsrel=1e-13, limit=500)[0] * 2 / np.pi
     c, qdc = separation_coefficient(s, j, q)
     assert c == pytest.approx(direct, rel=1e-11)
