@@ -234,6 +234,7 @@ class _Interpolant:
 
     def __init__(self, node_s, exact):
         self.t0 = float(node_s[0])
+        self.node_s = np.asarray(node_s, dtype=float)
         x = node_s - self.t0
         values = dict(exact)
         values["pole_cos"] = np.cos(exact["pole_angle"])

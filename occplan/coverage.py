@@ -1,0 +1,296 @@
+"""Which ring regions and resonance zones a chord crosses, and what it takes to resolve them.
+
+For each side of the chord (ingress and egress are two separate radial profiles) and each
+resonance zone [zone_inner_km, zone_outer_km], the crossing gives: entry and exit times, the
+time the ray crosses the resonance radius, ring longitude, radial velocity, whether the planet
+hides it, the shortest wavelength to resolve and the sampling interval this needs,
+
+    dt_req = lambda_min / (N |dr/dt|)      (N samples per wavelength, default 4; 2 = Nyquist),
+
+and the achievable radial resolution.  Resolution limits are projected from the sky plane to
+ring radius by |grad r| (km of radius per km in the sky plane): with u along the rings' long
+axis and v along the projected pole, r^2 = u^2 + v^2 / sin^2 B*, so
+|grad r| = sqrt(u^2 + v^2 / sin^4 B*) / r (1 along the long axis, 1/|sin B*| along the
+short one).  The achievable resolution combines in quadrature the radial distance covered in
+one sample (|dr/dt| x cadence), the Fresnel scale sqrt(lambda D / 2) and the star's projected
+diameter, each projected by |grad r|.  A zone is resolvable when that is below lambda_min / 2
+(DESIGN.md sec. 6) and, when the signal to noise could be evaluated, the SNR per resolution
+element reaches ``min_snr``.
+
+Sky-plane polygons (shapely): the oblate planet's disk is an ellipse with semi-axes R_eq and
+sqrt(R_eq^2 sin^2 B + R_pol^2 cos^2 B), short axis along the projected pole; a ring of radius
+r is an ellipse r x r |sin B*|.  The chord is a line with time as its third coordinate, so its
+intersection with the disk gives the planet-hidden intervals directly.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+import shapely
+from shapely.geometry import LineString, Point, Polygon
+
+from .geometry import Track
+
+DEFAULT_SAMPLES_PER_WAVELENGTH = 4.0
+NYQUIST_SAMPLES_PER_WAVELENGTH = 2.0
+DEFAULT_MIN_SNR = 3.0
+ELLIPSE_VERTICES = 1440  # chord error of the polygon: R (1 - cos(pi/1440)) = 0.14 km at 60,000 km
+
+
+# --------------------------------------------------------------------------- sky polygons
+
+
+def ellipse(a_km: float, b_km: float, pole_angle_deg: float, n: int = ELLIPSE_VERTICES) -> Polygon:
+    """Sky-plane ellipse (f east, g north, km): semi-axis a along the rings' long axis,
+    b along the projected pole at position angle P."""
+    th = np.linspace(0.0, 2.0 * np.pi, n, endpoint=False)
+    u, v = a_km * np.cos(th), b_km * np.sin(th)
+    p = math.radians(pole_angle_deg)
+    f = u * math.cos(p) + v * math.sin(p)
+    g = -u * math.sin(p) + v * math.cos(p)
+    return Polygon(np.column_stack([f, g]))
+
+
+def planet_disk(body, opening_angle_deg: float, pole_angle_deg: float) -> Polygon:
+    """The oblate planet's outline on the sky (km from its centre)."""
+    b = math.radians(opening_angle_deg)
+    minor = math.sqrt((body.equatorial_radius_km * math.sin(b)) ** 2
+                      + (body.polar_radius_km * math.cos(b)) ** 2)
+    return ellipse(body.equatorial_radius_km, minor, pole_angle_deg)
+
+
+def ring_annulus(inner_km: float, outer_km: float, star_elevation_deg: float,
+                 pole_angle_deg: float):
+    s = abs(math.sin(math.radians(star_elevation_deg)))
+    outer = ellipse(outer_km, outer_km * s, pole_angle_deg)
+    inner = ellipse(inner_km, inner_km * s, pole_angle_deg)
+    return outer.difference(inner)
+
+
+def far_side(polygon, star_elevation_deg: float, pole_angle_deg: float, size_km: float):
+    """The part of a ring polygon behind the planet's sky plane (hidden where on the disk).
+
+    A ring point at sky offset (u, v) lies at depth -v cot(B*) along the line of sight, so the
+    far half is the one with v sign(B*) < 0.
+    """
+    p = math.radians(pole_angle_deg)
+    e_v = np.array([math.sin(p), math.cos(p)])
+    e_u = np.array([math.cos(p), -math.sin(p)])
+    sgn = -1.0 if star_elevation_deg > 0 else 1.0
+    big = 4.0 * size_km
+    corners = [big * e_u, big * e_u + sgn * big * e_v, -big * e_u + sgn * big * e_v, -big * e_u]
+    return polygon.intersection(Polygon(corners))
+
+
+def hidden_intervals(track: Track) -> list[tuple[float, float]]:
+    """(start_s, end_s) intervals when the planet's disk hides the star (shapely).
+
+    Uses the disk at mid-chord (B and P change by < 1e-4 deg over a chord).
+    """
+    m = track.meta
+    disk = planet_disk(track.body, m["opening_angle_deg"], m["pole_position_angle_deg"])
+    t0 = float(track.tdb_s[0])
+    line = LineString(np.column_stack([track.sky_f_km, track.sky_g_km, track.tdb_s - t0]))
+    inter = line.intersection(disk)
+    out = []
+    parts = getattr(inter, "geoms", [inter])
+    for part in parts:
+        if isinstance(part, LineString) and not part.is_empty:
+            z = np.array(part.coords)[:, 2]
+            out.append((t0 + float(z.min()), t0 + float(z.max())))
+    return sorted(out)
+
+
+class SkyScene:
+    """The planet's disk and the ring regions on the sky for one chord (built once)."""
+
+    def __init__(self, body, opening_angle_deg: float, star_elevation_deg: float,
+                 pole_angle_deg: float):
+        self.body = body
+        self.disk = planet_disk(body, opening_angle_deg, pole_angle_deg)
+        self.rings = {r.name: ring_annulus(r.inner_km, r.outer_km, star_elevation_deg, pole_angle_deg)
+                      for r in body.rings}
+        all_rings = shapely.union_all(list(self.rings.values()))
+        far = far_side(all_rings, star_elevation_deg, pole_angle_deg, body.outer_ring_km)
+        self.near_rings = all_rings.difference(far)
+        # what the observer sees of the rings: the near side everywhere, the far side off the disk
+        self.visible_rings = self.near_rings.union(far.difference(self.disk))
+        self.visible_disk = self.disk.difference(self.near_rings)
+
+    @classmethod
+    def for_track(cls, track: Track) -> "SkyScene":
+        m = track.meta
+        return cls(track.body, m["opening_angle_deg"], m["star_elevation_deg"],
+                   m["pole_position_angle_deg"])
+
+    def aperture_fill(self, f_km: float, g_km: float, radius_km: float) -> dict:
+        """Fractions of a photometric aperture (circle of ``radius_km`` around the star at
+        sky offset (f, g)) covered by visible rings and by the visible planet disk."""
+        circle = Point(f_km, g_km).buffer(radius_km, 64)
+        area = circle.area
+        ring = min(circle.intersection(self.visible_rings).area / area, 1.0)
+        planet = min(circle.intersection(self.visible_disk).area / area, 1.0 - ring)
+        return {"ring_fill_fraction": ring, "planet_fill_fraction": planet}
+
+
+# --------------------------------------------------------------------------- zone crossings
+
+
+def radial_projection_factor(track: Track, when_s) -> np.ndarray:
+    """|grad r| in the sky plane (km of ring radius per km on the sky) at the given times."""
+    v = track.interp(np.atleast_1d(when_s))
+    f, g = v["sky_f"], v["sky_g"]
+    p = np.arctan2(v["pole_sin"], v["pole_cos"])
+    sb = np.sin(v["star_elevation"])
+    u = f * np.cos(p) - g * np.sin(p)
+    w = f * np.sin(p) + g * np.cos(p)
+    r = np.hypot(u, w / sb)
+    return np.sqrt(u * u + (w / sb**2) ** 2) / r
+
+
+def times_at_radius(track: Track, radius_km: float) -> np.ndarray:
+    """All times in the window when the chord crosses ring radius ``radius_km`` (sorted)."""
+    from .geometry import _crossing_times
+
+    nodes = track.interp.node_s
+    return np.sort(_crossing_times(track.interp, nodes, track.interp.radius(nodes), radius_km,
+                                   track.tdb_s[0], track.tdb_s[-1]))
+
+
+def sides(track: Track) -> list[tuple[str, float, float]]:
+    """The chord's radial profiles: ('ingress', start, closest approach) and ('egress', ...)."""
+    t0, t1, ca = float(track.tdb_s[0]), float(track.tdb_s[-1]), track.closest_approach_s
+    out = []
+    if ca > t0:
+        out.append(("ingress", t0, ca))
+    if ca < t1:
+        out.append(("egress", ca, t1))
+    return out
+
+
+@dataclass
+class ZoneCrossing:
+    """One resonance zone crossed on one side of the chord."""
+
+    resonance: object  # occplan.resonances.Resonance
+    side: str
+    time_s: float  # crossing of the resonance radius (nan if that side does not reach it)
+    start_s: float  # entering the zone
+    end_s: float  # leaving it
+    radial_velocity_km_s: float  # at the resonance radius (or mid-zone)
+    max_radial_speed_km_s: float  # largest |dr/dt| inside the zone
+    ring_longitude_deg: float
+    behind_planet: bool
+    feature_scale_km: float  # the shortest wavelength, or the zone width without a wave
+    required_interval_s: float
+    achievable_resolution_km: float
+    limit: str  # which term dominates the achievable resolution
+    resolvable: bool
+    reasons: list = field(default_factory=list)
+    partial: bool = False  # the side does not cover the whole zone
+    snr_per_element: float = float("nan")
+    usable: bool | None = None  # observable at the site (None: not evaluated)
+
+
+def _radius_window(track: Track, side_start: float, side_end: float, r_lo: float, r_hi: float):
+    """Times [a, b] (within a side) when r lies in [r_lo, r_hi], or None."""
+    interp = track.interp
+    ra, rb = interp.radius(np.array([side_start, side_end]))
+    lo_side, hi_side = min(ra, rb), max(ra, rb)
+    if r_hi < lo_side or r_lo > hi_side:
+        return None
+    times = [t for t in np.r_[times_at_radius(track, r_lo), times_at_radius(track, r_hi)]
+             if side_start <= t <= side_end]
+    inside = [t for t in (side_start, side_end) if r_lo <= interp.radius(np.array([t]))[0] <= r_hi]
+    pts = sorted(times + inside)
+    if not pts:
+        return None
+    return pts[0], pts[-1]
+
+
+def zone_crossings(track: Track, resonances, *, cadence_s: float, fresnel_km: float,
+                   stellar_diameter_km: float | None,
+                   samples_per_wavelength: float = DEFAULT_SAMPLES_PER_WAVELENGTH,
+                   snr_function=None, min_snr: float = DEFAULT_MIN_SNR,
+                   hidden: list | None = None) -> list[ZoneCrossing]:
+    """Every resonance zone the chord crosses, per side.
+
+    Parameters
+    ----------
+    cadence_s : float
+        Sampling interval of the camera (s).
+    fresnel_km : float
+        Fresnel scale in the sky plane at the planet (km).
+    stellar_diameter_km : float or None
+        The star's diameter projected at the planet (km); None when it could not be
+        evaluated (no K magnitude): that limit is then left out, and the reasons say so.
+    snr_function : callable, optional
+        ``snr_function(resolution_km, radial_speed_km_s, when_s) -> SNR per element``.
+    hidden : list of (start_s, end_s), optional
+        Planet-hidden intervals (default: :func:`hidden_intervals`).
+    """
+    if samples_per_wavelength < NYQUIST_SAMPLES_PER_WAVELENGTH:
+        from .errors import InputError
+
+        raise InputError(f"{samples_per_wavelength} samples per wavelength is below the Nyquist "
+                         f"bound of {NYQUIST_SAMPLES_PER_WAVELENGTH}")
+    hidden = hidden_intervals(track) if hidden is None else hidden
+    out = []
+    interp = track.interp
+    for side, a, b in sides(track):
+        for res in resonances:
+            win = _radius_window(track, a, b, res.zone_inner_km, res.zone_outer_km)
+            if win is None:
+                continue
+            start, end = win
+            t_res = [t for t in times_at_radius(track, res.resonance_radius_km) if a <= t <= b]
+            when = t_res[0] if t_res else 0.5 * (start + end)
+            probe = np.array([start, when, end])
+            speeds = np.abs(interp.radial_velocity(probe))
+            v_here = float(interp.radial_velocity(np.array([when]))[0])
+            vmax = float(speeds.max())
+            lam = res.shortest_wavelength_km
+            if not np.isfinite(lam):
+                lam = max(res.zone_outer_km - res.zone_inner_km, 1e-3)
+            dt_req = lam / (samples_per_wavelength * vmax) if vmax > 0 else float("inf")
+            grad = float(radial_projection_factor(track, when)[0])
+            terms = {"cadence": vmax * cadence_s, "Fresnel scale": fresnel_km * grad}
+            reasons = []
+            if stellar_diameter_km is not None:
+                terms["stellar diameter"] = stellar_diameter_km * grad
+            else:
+                reasons.append("stellar diameter not evaluated (needs V and K)")
+            resolution = math.sqrt(sum(x * x for x in terms.values()))
+            limit = max(terms, key=terms.get)
+            ok = resolution < lam / 2.0
+            if not ok:
+                reasons.insert(0, f"achievable {resolution:.2f} km >= half the shortest "
+                                  f"wavelength ({lam / 2:.2f} km), limited by the {limit}")
+            if cadence_s > dt_req:
+                reasons.append(f"cadence {cadence_s:g} s is slower than the {dt_req:.3g} s "
+                               f"needed for {samples_per_wavelength:g} samples per wavelength")
+            snr = float("nan")
+            if snr_function is not None:
+                snr = float(snr_function(max(resolution, lam / 2.0), vmax, when))
+                if np.isfinite(snr) and snr < min_snr:
+                    ok = False
+                    reasons.append(f"SNR per resolution element {snr:.1f} < {min_snr:g}")
+            else:
+                reasons.append("SNR not evaluated (needs the star's magnitude)")
+            behind = any(h0 <= when <= h1 for h0, h1 in hidden)
+            u_node, u_perp = interp.in_plane(np.array([when]))[0][:, 0]
+            lon = float(np.degrees(np.arctan2(u_perp, u_node)) % 360.0)
+            out.append(ZoneCrossing(
+                resonance=res, side=side, time_s=t_res[0] if t_res else float("nan"),
+                start_s=start, end_s=end, radial_velocity_km_s=v_here,
+                max_radial_speed_km_s=vmax, ring_longitude_deg=lon, behind_planet=behind,
+                feature_scale_km=lam, required_interval_s=dt_req,
+                achievable_resolution_km=resolution, limit=limit,
+                resolvable=bool(ok and not behind), reasons=reasons + (["behind the planet"] if behind else []),
+                partial=not t_res, snr_per_element=snr,
+            ))
+    out.sort(key=lambda z: (z.start_s, z.resonance.resonance_radius_km))
+    return out
