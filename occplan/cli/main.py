@@ -60,7 +60,8 @@ def run(argv: list[str] | None = None) -> None:
     warnings.filterwarnings("ignore", message=".*finals.*", category=UserWarning)
     app = build_app()
     try:
-        app(args=argv, standalone_mode=False)
+        # standalone_mode=False: click returns the exit code of typer.Exit instead of exiting
+        rc = app(args=argv, standalone_mode=False)
     except OccplanError as exc:
         typer.echo(f"occplan: error: {exc}", err=True)
         sys.exit(2)
@@ -76,6 +77,7 @@ def run(argv: list[str] | None = None) -> None:
             exc.show()
             sys.exit(2)
         raise
+    sys.exit(rc if isinstance(rc, int) else 0)
 
 
 if __name__ == "__main__":
