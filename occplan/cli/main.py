@@ -56,28 +56,18 @@ def build_app() -> typer.Typer:
 
 
 def run(argv: list[str] | None = None) -> None:
-    """Console entry point."""
+    """Console entry point.
+
+    Commands wrap their bodies in :func:`occplan.cli.options.user_errors`, so user errors are
+    already one stderr line and exit 2; click handles usage errors (exit 2) itself.
+    """
     warnings.filterwarnings("ignore", message=".*finals.*", category=UserWarning)
     app = build_app()
     try:
-        # standalone_mode=False: click returns the exit code of typer.Exit instead of exiting
-        rc = app(args=argv, standalone_mode=False)
-    except OccplanError as exc:
+        app(args=argv)
+    except OccplanError as exc:  # raised outside a command (option callbacks)
         typer.echo(f"occplan: error: {exc}", err=True)
         sys.exit(2)
-    except typer.Exit as exc:
-        sys.exit(exc.exit_code)
-    except typer.Abort:
-        typer.echo("occplan: aborted", err=True)
-        sys.exit(1)
-    except Exception as exc:  # click usage errors
-        import click
-
-        if isinstance(exc, click.exceptions.ClickException):
-            exc.show()
-            sys.exit(2)
-        raise
-    sys.exit(rc if isinstance(rc, int) else 0)
 
 
 if __name__ == "__main__":
