@@ -74,3 +74,14 @@ def user_errors(func):
                 raise typer.Exit(2) from None
 
     return wrapper
+
+# --- telescope and evaluation ----------------------------------------------------------------
+Telescope = Annotated[Optional[Path], typer.Option("--telescope", help="Telescope/camera TOML profile (aperture_m, throughput, read_noise_e, cadence_s, band, ...); default: a generic 1-m fast CMOS.")]
+Cadence = Annotated[Optional[float], typer.Option("--cadence", help="Camera sampling interval, s (overrides the profile).")]
+Band = Annotated[Optional[str], typer.Option("--band", help="Photometric band V, R, I, J, H or K (overrides the profile).")]
+Aperture = Annotated[Optional[float], typer.Option("--aperture", help="Telescope aperture diameter, m (overrides the profile).")]
+SamplesPerWavelength = Annotated[Optional[float], typer.Option("--samples-per-wavelength", help="Samples per shortest wavelength for the required cadence (default 4; 2 is the Nyquist bound).")]
+MaxOrder = Annotated[int, typer.Option("--max-order", help="Highest resonance order considered (1..3).")]
+Sigma = Annotated[Optional[float], typer.Option("--sigma", help="Ring surface density, g/cm^2, everywhere (overrides the body file's region values).")]
+LuminosityClass = Annotated[str, typer.Option("--luminosity-class", help="Star's class for the diameter relation: dwarf, giant or auto (from V-K).")]
+MinSnr = Annotated[float, typer.Option("--min-snr", help="Minimum SNR per resolution element for a zone to count as resolvable.")]

@@ -1,0 +1,75 @@
+"""`occplan event`: evaluate one candidate occultation."""
+
+from __future__ import annotations
+
+import json
+
+import typer
+
+from .. import events
+from ..tables import _plain, check_format, check_out, emit, render
+from ..telescope import load_telescope
+from . import common
+from . import options as o
+
+ZONE_COLUMNS = ["side", "time_utc", "satellite", "label", "kind", "wave", "m", "order",
+                "resonance_radius_km", "radial_velocity_km_s", "shortest_wavelength_km",
+                "required_interval_s", "achievable_resolution_km", "snr_per_element",
+                "resolvable", "behind_planet", "usable"]
+
+
+def telescope_from_options(telescope, cadence, band, aperture):
+    return load_telescope(telescope, cadence_s=cadence, band=band.upper() if band else None,
+                          aperture_m=aperture)
+
+
+def register(app: typer.Typer) -> None:
+    @app.command("event")
+    @o.user_errors
+    def event(
+        body: o.Body = "saturn",
+        star: o.Star = None, pm_ra: o.PmRa = 0.0, pm_dec: o.PmDec = 0.0,
+        parallax: o.Parallax = 0.0, rv: o.Rv = 0.0, star_epoch: o.StarEpoch = "2016.0",
+        vmag: o.Vmag = None, kmag: o.Kmag = None,
+        catalog: o.Catalog = None, star_id: o.StarId = None,
+        site: o.Site = None, sites: o.Sites = None, lat: o.Lat = None, lon: o.Lon = None,
+        height: o.Height = 0.0, geocentre: o.Geocentre = False, observer_id: o.ObserverId = None,
+        start: o.Start = None, end: o.End = None, step: o.Step = 10.0,
+        kernel: o.Kernel = None, no_deflection: o.NoDeflection = False,
+        barycentre: o.Barycentre = False,
+        telescope: o.Telescope = None, cadence: o.Cadence = None, band: o.Band = None,
+        aperture: o.Aperture = None, samples_per_wavelength: o.SamplesPerWavelength = None,
+        max_order: o.MaxOrder = 3, sigma: o.Sigma = None,
+        luminosity_class: o.LuminosityClass = "auto", min_snr: o.MinSnr = 3.0,
+        fmt: o.Format = "table", out: o.Out = None, overwrite: o.Overwrite = False,
+    ):
+        """Evaluate one candidate: crossings, zones on the chord, cadence, resolution, SNR, safety.
+
+        Example: occplan event --body saturn --star "23.9962 7.4705" --vmag 9.5 --kmag 6.0
+        --lat -25 --lon 160 --start 2027-06-14T22:00Z --end 2027-06-15T04:00Z
+        """
+        fmt = check_format(fmt)
+        check_out(out, overwrite)
+        tel = telescope_from_options(telescope, cadence, band, aperture)
+        if sigma is not None and sigma < 0:
+            from ..errors import InputError
+
+            raise InputError(f"--sigma {sigma} g/cm^2 is negative")
+        report = events.evaluate_event(
+            common.body(body),
+            common.star(star, pm_ra, pm_dec, parallax, rv, star_epoch, vmag, kmag, catalog, star_id),
+            common.observer(site, sites, lat, lon, height, geocentre, observer_id),
+            common.window(start, end), telescope=tel, kernels=kernel,
+            deflection=not no_deflection, barycentre_only=barycentre, step_s=step,
+            max_order=max_order, sigma_g_cm2=sigma, samples_per_wavelength=samples_per_wavelength,
+            luminosity_class=luminosity_class, min_snr=min_snr,
+        )
+        if fmt == "json":
+            text = json.dumps(_plain(report.to_json()), indent=1) + "\n"
+        elif fmt == "table":
+            text = events.summary_text(report)
+        else:
+            data = report.to_json()
+            meta = {k: v for k, v in data.items() if k != "zones"}
+            text = render(report.zone_rows(), meta, fmt, columns=None)
+        emit(text, out, overwrite)
