@@ -191,6 +191,8 @@ class ZoneCrossing:
     resolvable: bool
     reasons: list = field(default_factory=list)
     partial: bool = False  # the side does not cover the whole zone
+    resolved_extent_km: float = 0.0  # how far from resonance the wave stays resolvable
+    resolved_fraction: float = 0.0  # resolved_extent / zone width (1 = the whole train)
     snr_per_element: float = float("nan")
     usable: bool | None = None  # observable at the site (None: not evaluated)
 
@@ -209,6 +211,25 @@ def _radius_window(track: Track, side_start: float, side_end: float, r_lo: float
     if not pts:
         return None
     return pts[0], pts[-1]
+
+
+def resolved_extent(res, resolution_km: float) -> tuple[float, float]:
+    """How much of a wave train a radial resolution resolves.
+
+    The wavelength at distance x from resonance is 2 pi ell^2 / x (linear theory, see
+    :func:`occplan.resonances.wave_zones`; ell^2 = x_1^2 / (4 pi) from the first-wavelength
+    distance x_1), so it stays above twice the resolution out to x = pi ell^2 / resolution.
+    Returns (extent_km, fraction of the zone width).  A zone without a wave (an edge) is all
+    or nothing: resolved when the resolution is below half its width.
+    """
+    width = max(res.zone_outer_km - res.zone_inner_km, 1e-9)
+    x1 = getattr(res, "first_wavelength_km", float("nan"))
+    if res.wave == "none" or not np.isfinite(x1) or x1 <= 0:
+        ok = resolution_km < width / 2.0
+        return (width if ok else 0.0), (1.0 if ok else 0.0)
+    ell2 = x1 * x1 / (4.0 * math.pi)
+    extent = min(width, math.pi * ell2 / max(resolution_km, 1e-9))
+    return extent, extent / width
 
 
 def zone_crossings(track: Track, resonances, *, cadence_s: float, fresnel_km: float,
@@ -280,6 +301,7 @@ def zone_crossings(track: Track, resonances, *, cadence_s: float, fresnel_km: fl
                     reasons.append(f"SNR per resolution element {snr:.1f} < {min_snr:g}")
             else:
                 reasons.append("SNR not evaluated (needs the star's magnitude)")
+            extent, fraction = resolved_extent(res, resolution)
             behind = any(h0 <= when <= h1 for h0, h1 in hidden)
             u_node, u_perp = interp.in_plane(np.array([when]))[0][:, 0]
             lon = float(np.degrees(np.arctan2(u_perp, u_node)) % 360.0)
@@ -291,6 +313,8 @@ def zone_crossings(track: Track, resonances, *, cadence_s: float, fresnel_km: fl
                 achievable_resolution_km=resolution, limit=limit,
                 resolvable=bool(ok and not behind), reasons=reasons + (["behind the planet"] if behind else []),
                 partial=not t_res, snr_per_element=snr,
+                resolved_extent_km=0.0 if behind else extent,
+                resolved_fraction=0.0 if behind else fraction,
             ))
     out.sort(key=lambda z: (z.start_s, z.resonance.resonance_radius_km))
     return out

@@ -96,6 +96,8 @@ class EventReport:
                 "required_interval_s": z.required_interval_s,
                 "achievable_resolution_km": z.achievable_resolution_km,
                 "resolvable": z.resolvable, "behind_planet": z.behind_planet,
+                "resolved_extent_km": z.resolved_extent_km,
+                "resolved_fraction": z.resolved_fraction,
                 "shortest_wavelength_km": z.feature_scale_km, "limit": z.limit,
                 "snr_per_element": z.snr_per_element, "usable": z.usable,
                 "torque_per_sigma": r.torque_per_sigma, "edge": r.edge,
@@ -323,8 +325,9 @@ def summary_text(rep: EventReport) -> str:
     if rep.photometry.get("note"):
         lines.append(f"  note: {rep.photometry['note']}")
     n_res = sum(z.resolvable for z in rep.zones)
-    lines += ["", f"Resonance zones crossed: {len(rep.zones)} ({n_res} resolvable); "
-                  f"{rep.meta['zone_selection']}"]
+    n_part = sum((not z.resolvable) and z.resolved_fraction > 0 for z in rep.zones)
+    lines += ["", f"Resonance zones crossed: {len(rep.zones)} ({n_res} resolvable over the whole "
+                  f"wave train, {n_part} in part); {rep.meta['zone_selection']}"]
     if rep.zones:
         lines.append(f"  {'side':7s} {'time (UTC)':12s} {'feature':22s} {'r_res km':>10s} "
                      f"{'v km/s':>7s} {'lam km':>7s} {'dt_req s':>8s} {'res km':>7s} {'SNR':>6s}  verdict")
@@ -332,7 +335,13 @@ def summary_text(rep: EventReport) -> str:
         r = z.resonance
         t = _utc(z.time_s)[11:23] if np.isfinite(z.time_s) else "(partial)"
         what = f"{r.satellite} {r.label} {'edge' if r.edge else r.kind}"
-        verdict = "resolvable" if z.resolvable else ("NOT: " + (z.reasons[0] if z.reasons else ""))
+        if z.resolvable:
+            verdict = "resolvable"
+        elif z.resolved_fraction > 0 and not z.behind_planet:
+            verdict = (f"partly: first {z.resolved_extent_km:.0f} of "
+                       f"{r.zone_outer_km - r.zone_inner_km:.0f} km resolved ({z.limit}-limited)")
+        else:
+            verdict = "NOT: " + (z.reasons[0] if z.reasons else "")
         if z.usable is False:
             verdict += " [not observable]"
         snr = f"{z.snr_per_element:6.1f}" if np.isfinite(z.snr_per_element) else "     -"
