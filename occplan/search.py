@@ -1,0 +1,616 @@
+"""Candidate events across a star catalog and a date window (the API behind `occplan find`).
+
+Three stages, each exact enough for the next:
+
+1. **Prefilter** (:func:`prefilter`).  The planet's geocentric astrometric direction p(t_k)
+   (light time iterated, no aberration, like the stars) on nodes every ``node_step_s``
+   (1 h by default) over the window, and a k-d tree (``scipy.spatial.cKDTree``) on those unit
+   vectors.  Each catalog star, propagated to mid-window with its proper motion, is kept when
+   it lies within
+
+       theta = R_thr / D_min + h_max / 2 + m_star,     R_thr = R_out + R_E + margin
+
+   of a node (chord distance of unit vectors, equal to the angle to 1e-12 at these sizes):
+   R_out the outer edge of the outermost ring region, R_E = 6378.137 km (WGS84 equatorial
+   radius; a site's ray is parallel to the geocentre's, so on the sky at the planet it is
+   displaced by at most R_E), D_min the smallest geocentric distance in the window, h_max the
+   largest angular step between nodes (every point of the path is within h/2 of a node, plus
+   a sagitta below 1e-9 rad), and m_star the star's own motion allowance: |mu| times the
+   largest time from mid-window, plus 1.02 x parallax (the Earth's distance from the
+   barycentre is at most 1.017 AU), plus the second-order term (|mu| dt)^2 of the linear
+   propagation.  The circle of radius R_thr contains the ring ellipse dilated by R_E, so no
+   candidate is lost here.
+2. **Geocentric refinement** (:func:`refine_candidate`).  For each prefiltered star and each
+   contiguous run of nodes where it is within reach, the exact geocentric track
+   (:func:`occplan.geometry.compute_track`: full light time to the ring intercept, parallax,
+   deflection, planet-centre correction).  Each local minimum of the ring-plane radius r(t)
+   (root of u.du/dt by Brent's method on the track splines) is a closest approach,
+   ``closest_approach_utc`` / ``min_ring_radius_km``.  The star is a **candidate** when
+
+       d_sky = min_t dist( (f, g)(t), outer-ring ellipse ) <= R_E + margin,
+
+   the sky-plane distance (km at the planet) of the geocentric ray from the filled ellipse of
+   the outermost ring edge (semi-axes R_out along the rings' long axis and R_out |sin B*|
+   along the projected pole).  This is the projected form of "within the outer ring radius
+   plus the Earth's radius and a margin": a site can see the star cross the rings only if its
+   own ray, at most R_E from the geocentre's on the sky, falls inside that ellipse.
+   d_sky is minimised with Brent's bounded method on the splines.  Only closest approaches
+   inside the requested window are kept (the nodes extend ``pad_s`` beyond it so that the
+   minimum itself is found).
+3. **Per observer** (:func:`topocentric_event`).  The observer's own track around the
+   geocentric closest approach, over the time the chord needs to cross the outer ring plus
+   the Earth's radius at the geocentric sky speed (with 15 min either side), and its ring
+   crossings by root finding.  An event is an (observer, closest approach) whose chord
+   crosses at least one ring region.
+"""
+
+from __future__ import annotations
+
+import math
+import sys
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.optimize import brentq, minimize_scalar
+from scipy.spatial import cKDTree
+
+from . import __version__
+from .constants import SPEED_OF_LIGHT_KM_S
+from .ephemeris import Observer, get_ephemeris, parse_utc, tdb_s_of, time_from_tdb_s, utc_iso
+from .errors import CoverageError, GeometryError, InputError
+from .geometry import Corrections, compute_track, window_times
+
+EARTH_RADIUS_KM = 6378.137  # WGS84 equatorial radius (NIMA TR8350.2)
+DEFAULT_MARGIN_KM = 1000.0  # occplan choice: planet-ephemeris and star-position errors at 10 AU
+DEFAULT_NODE_STEP_S = 3600.0
+DEFAULT_PAD_S = 2 * 86400.0
+MAS_RAD = math.radians(1.0 / 3.6e6)
+EARTH_BARYCENTRE_AU_MAX = 1.02  # aphelion 1.0167 AU plus the Sun's offset from the barycentre
+JULIAN_YEAR_DAYS = 365.25
+J2000_JD = 2451545.0
+SIDE_PAD_S = 900.0  # observer windows reach 15 min beyond the outer ring + R_E crossing
+MAX_HALF_WINDOW_S = 2 * 86400.0
+PLANET_SPEED_MAX_KM_S = 14.0  # Jupiter at perihelion moves 13.7 km/s about the Sun (common practice)
+
+
+# --------------------------------------------------------------------------- small kernels
+
+
+def star_unit_vectors(table, tdb_s_ref: float) -> np.ndarray:
+    """Barycentric unit vectors (N, 3) of catalog stars at a reference time.
+
+    Linear propagation in the tangent plane, u = (u0 + dt (mu_a* e_a + mu_d e_d)) / |...|,
+    with e_a = (-sin a, cos a, 0) and e_d = (-sin d cos a, -sin d sin a, cos d); the neglected
+    terms are of order (|mu| dt)^2 (a few 1e-11 rad for 100 mas/yr over 10 yr) and the
+    parallax, both covered by :func:`star_margins_rad`.
+    """
+    a = np.radians(table.ra_deg)
+    d = np.radians(table.dec_deg)
+    ca, sa, cd, sd = np.cos(a), np.sin(a), np.cos(d), np.sin(d)
+    dt_yr = (J2000_JD + tdb_s_ref / 86400.0 - table.epoch_jd_tt) / JULIAN_YEAR_DAYS
+    pa = table.pm_ra_mas_yr * MAS_RAD * dt_yr
+    pd = table.pm_dec_mas_yr * MAS_RAD * dt_yr
+    u = np.column_stack([cd * ca - pa * sa - pd * sd * ca,
+                         cd * sa + pa * ca - pd * sd * sa,
+                         sd + pd * cd])
+    return u / np.linalg.norm(u, axis=1)[:, None]
+
+
+def star_margins_rad(table, tdb_s_ref: float, half_span_s: float) -> np.ndarray:
+    """Angular allowance per star for the prefilter (rad); see the module docstring."""
+    mu = np.hypot(table.pm_ra_mas_yr, table.pm_dec_mas_yr) * MAS_RAD  # rad / yr
+    dt_epoch = np.abs(J2000_JD + tdb_s_ref / 86400.0 - table.epoch_jd_tt) / JULIAN_YEAR_DAYS
+    half_yr = half_span_s / 86400.0 / JULIAN_YEAR_DAYS
+    return (mu * half_yr + EARTH_BARYCENTRE_AU_MAX * table.parallax_mas * MAS_RAD
+            + (mu * (dt_epoch + half_yr)) ** 2 + 1e-10)
+
+
+def distance_to_ellipse(x, y, a: float, b):
+    """Distance (same unit) from points (x, y) to the filled ellipse x^2/a^2 + y^2/b^2 <= 1.
+
+    0 inside.  Outside, the closest point is (a^2 x/(t + a^2), b^2 y/(t + b^2)) with t > 0 the
+    root of F(t) = (a x/(t + a^2))^2 + (b y/(t + b^2))^2 - 1 (Lagrange condition of the
+    projection; e.g. Eberly, "Distance from a point to an ellipse", 2011).  F is convex and
+    decreasing for t > 0, so Newton's method from t = 0 climbs to the root monotonically.
+    ``b`` may be an array (the ring ellipse's short axis changes with B*).
+    """
+    x = np.abs(np.asarray(x, dtype=float))
+    y = np.abs(np.asarray(y, dtype=float))
+    b = np.broadcast_to(np.maximum(np.asarray(b, dtype=float), 1e-9), x.shape)
+    a2, b2 = a * a, b * b
+    inside = (x / a) ** 2 + (y / b) ** 2 <= 1.0
+    t = np.zeros_like(x)
+    for _ in range(60):
+        ex, ey = a * x / (t + a2), b * y / (t + b2)
+        f = ex * ex + ey * ey - 1.0
+        df = -2.0 * (ex * ex / (t + a2) + ey * ey / (t + b2))
+        step = np.where(inside | (df == 0), 0.0, -f / np.where(df == 0, -1.0, df))
+        t = t + np.maximum(step, 0.0)
+        if np.all(np.abs(step) <= 1e-12 * (t + a2)):
+            break
+    xc, yc = a2 * x / (t + a2), b2 * y / (t + b2)
+    return np.where(inside, 0.0, np.hypot(x - xc, y - yc))
+
+
+def _runs(mask: np.ndarray, join: int = 1) -> list[tuple[int, int]]:
+    """(first, last) index pairs of runs of True, joining runs separated by <= join False."""
+    idx = np.nonzero(mask)[0]
+    if idx.size == 0:
+        return []
+    breaks = np.nonzero(np.diff(idx) > join + 1)[0]
+    starts = np.r_[idx[0], idx[breaks + 1]]
+    ends = np.r_[idx[breaks], idx[-1]]
+    return list(zip(starts.tolist(), ends.tolist()))
+
+
+# --------------------------------------------------------------------------- planet path
+
+
+@dataclass
+class PlanetPath:
+    """The planet's geocentric astrometric direction on time nodes."""
+
+    tdb_s: np.ndarray
+    unit: np.ndarray  # (N, 3)
+    distance_km: np.ndarray
+    threshold_km: float
+    step_rad: np.ndarray  # angle between consecutive nodes (N-1,)
+    light_time_allowance_km: np.ndarray  # (N,) see planet_path
+
+    @property
+    def theta_nodes_rad(self) -> np.ndarray:
+        return (self.threshold_km + self.light_time_allowance_km) / self.distance_km
+
+    @property
+    def theta_rad(self) -> float:
+        """Largest angular radius of the threshold circle over the nodes."""
+        return float(self.theta_nodes_rad.max())
+
+
+def planet_path(eph, body, t0_s: float, t1_s: float, step_s: float, threshold_km: float,
+                corrections: Corrections = Corrections()) -> PlanetPath:
+    """Geocentric astrometric unit vectors of the planet centre (light time iterated twice).
+
+    The track takes the light time to the ring intercept, up to R_out / (c |sin B|) longer
+    than the planet centre's; the planet moves by at most ``PLANET_SPEED_MAX_KM_S`` times
+    that, which the prefilter adds per node (``light_time_allowance_km``, tens of km
+    except near ring-plane crossings).
+    """
+    n = max(int(math.ceil((t1_s - t0_s) / step_s)) + 1, 2)
+    t = np.linspace(t0_s, t1_s, n)
+    when = time_from_tdb_s(t)
+    geo = Observer.geocentre()
+    obs = eph.observer_km(geo, when).reshape(3, -1)
+    planet = eph.planet_km(body, when, barycentre_only=corrections.barycentre_only).reshape(3, -1)
+    for _ in range(2):
+        lt = np.linalg.norm(planet - obs, axis=0) / SPEED_OF_LIGHT_KM_S
+        planet = eph.planet_km(body, time_from_tdb_s(t - lt),
+                               barycentre_only=corrections.barycentre_only).reshape(3, -1)
+    q = planet - obs
+    dist = np.linalg.norm(q, axis=0)
+    unit = (q / dist).T
+    steps = np.linalg.norm(np.diff(unit, axis=0), axis=1)
+    pole = body.pole.unit_vector(J2000_JD + (t - lt) / 86400.0).reshape(3, -1)
+    sin_b = np.abs(np.einsum("ij,ji->i", unit, pole))
+    allowance = PLANET_SPEED_MAX_KM_S * body.outer_ring_km / (
+        SPEED_OF_LIGHT_KM_S * np.maximum(sin_b, 1e-4))
+    return PlanetPath(t, unit, dist, float(threshold_km), steps, allowance)
+
+
+def prefilter(path: PlanetPath, table, chunk: int = 200_000):
+    """Catalog rows that come within reach of the path, and for each the node runs.
+
+    Returns
+    -------
+    list of (row index, list of (first node, last node))
+    """
+    t_ref = 0.5 * (path.tdb_s[0] + path.tdb_s[-1])
+    half = 0.5 * (path.tdb_s[-1] - path.tdb_s[0])
+    base = path.theta_rad + 0.5 * float(path.step_rad.max(initial=0.0)) + 1e-9
+    tree = cKDTree(path.unit)
+    hits = []
+    for lo in range(0, len(table), chunk):
+        sub = table.subset(np.arange(lo, min(lo + chunk, len(table))))
+        u = star_unit_vectors(sub, t_ref)
+        margin = star_margins_rad(sub, t_ref, half)
+        # group stars by their margin (powers of two) so that one query radius serves a group
+        level = np.ceil(np.log2(np.maximum(margin, 1e-9) / 1e-9)).astype(int)
+        for lv in np.unique(level):
+            sel = np.nonzero(level == lv)[0]
+            radius = base + 1e-9 * 2.0 ** lv
+            d, _ = tree.query(u[sel], distance_upper_bound=radius)
+            hits.extend((lo + sel[np.isfinite(d)]).tolist())
+    out = []
+    if not hits:
+        return out
+    hits = np.array(sorted(hits))
+    cand = table.subset(hits)
+    u = star_unit_vectors(cand, t_ref)
+    margin = star_margins_rad(cand, t_ref, half)
+    theta_nodes = path.theta_nodes_rad
+    h = np.r_[path.step_rad, 0.0]
+    h = 0.5 * np.maximum(h, np.r_[0.0, path.step_rad])
+    for j, row in enumerate(hits):
+        chord = np.linalg.norm(path.unit - u[j], axis=1)
+        near = chord <= theta_nodes + h + margin[j] + 1e-9
+        out.append((int(row), _runs(near)))
+    return out
+
+
+# --------------------------------------------------------------------------- refinement
+
+
+@dataclass
+class Candidate:
+    """A geocentric closest approach that passes the threshold (see the module docstring)."""
+
+    row: int  # index into the star table
+    star: object  # StarSpec
+    closest_approach_s: float
+    min_ring_radius_km: float
+    sky_distance_km: float  # d_sky: distance of the geocentric ray from the outer-ring ellipse
+    sky_distance_time_s: float
+    sky_speed_km_s: float  # geocentric speed of the ray on the sky at closest approach
+    opening_angle_deg: float
+    star_elevation_deg: float
+    distance_km: float
+    at_window_edge: bool
+
+    @property
+    def star_id(self) -> str:
+        return str(self.star.name)
+
+
+def _local_minima(interp, t0: float, t1: float) -> list[float]:
+    """Times of the local minima of r(t) in [t0, t1] (u.du/dt from - to +, Brent)."""
+    def g(tt):
+        v, dv = interp.in_plane(np.atleast_1d(tt))
+        return v[0] * dv[0] + v[1] * dv[1]
+
+    nodes = interp.node_s
+    grid = np.union1d(nodes[(nodes > t0) & (nodes < t1)], [t0, t1])
+    gv = g(grid)
+    idx = np.nonzero((gv[:-1] < 0) & (gv[1:] >= 0))[0]
+    mins = [brentq(lambda tt: float(g(tt)[0]), grid[i], grid[i + 1], xtol=1e-6) for i in idx]
+    if gv[0] >= 0:
+        mins.insert(0, float(t0))  # r increasing from the start: the minimum is at the edge
+    if gv[-1] < 0:
+        mins.append(float(t1))
+    return mins
+
+
+def sky_distance_km(track, body, tdb_s):
+    """d(t): distance of the track's ray from the outer-ring ellipse on the sky (km)."""
+    v = track.interp(np.atleast_1d(np.asarray(tdb_s, dtype=float)))
+    p = np.arctan2(v["pole_sin"], v["pole_cos"])
+    u = v["sky_f"] * np.cos(p) - v["sky_g"] * np.sin(p)
+    w = v["sky_f"] * np.sin(p) + v["sky_g"] * np.cos(p)
+    r_out = body.outer_ring_km
+    return distance_to_ellipse(u, w, r_out, r_out * np.abs(np.sin(v["star_elevation"])))
+
+
+def _min_sky_distance(track, body, a: float, b: float):
+    """(d_min, t) over [a, b]: dense spline samples, then Brent's bounded method."""
+    n = int(min(max((b - a) / 30.0, 16), 20000))
+    tt = np.linspace(a, b, n)
+    d = sky_distance_km(track, body, tt)
+    k = int(np.argmin(d))
+    if d[k] == 0.0:
+        return 0.0, float(tt[k])
+    lo, hi = tt[max(k - 1, 0)], tt[min(k + 1, n - 1)]
+    if hi <= lo:
+        return float(d[k]), float(tt[k])
+    res = minimize_scalar(lambda x: float(sky_distance_km(track, body, x)[0]), bounds=(lo, hi),
+                          method="bounded", options={"xatol": 0.01})
+    if res.fun < d[k]:
+        return float(res.fun), float(res.x)
+    return float(d[k]), float(tt[k])
+
+
+def refine_candidate(eph, body, star, row, t_start: float, t_end: float, window: tuple,
+                     corrections: Corrections, margin_km: float, step_s: float = 300.0):
+    """Exact geocentric closest approaches of one star over [t_start, t_end].
+
+    Returns the :class:`Candidate` objects (within the threshold, closest approach inside
+    ``window``).  Raises GeometryError when the rings are edge-on there.
+    """
+    times = window_times(t_start, t_end, min(step_s, max((t_end - t_start) / 4.0, 1.0)))
+    track = compute_track(eph, body, Observer.geocentre(), star, times, corrections)
+    interp = track.interp
+    mins = _local_minima(interp, t_start, t_end)
+    out = []
+    limit = EARTH_RADIUS_KM + margin_km
+    # a side of each minimum reaches the neighbouring minimum's basin at the midpoint
+    bounds = [t_start] + [0.5 * (x + y) for x, y in zip(mins[:-1], mins[1:])] + [t_end]
+    for k, t_ca in enumerate(mins):
+        if not window[0] <= t_ca <= window[1]:
+            continue
+        d_min, t_d = _min_sky_distance(track, body, bounds[k], bounds[k + 1])
+        if d_min > limit:
+            continue
+        r_min = float(interp.radius(np.array([t_ca]))[0])
+        probe = np.array([t_ca - 30.0, t_ca + 30.0])
+        v = interp(probe)
+        speed = float(math.hypot(v["sky_f"][1] - v["sky_f"][0], v["sky_g"][1] - v["sky_g"][0]) / 60.0)
+        at_ca = interp(np.array([t_ca]))
+        out.append(Candidate(
+            row=row, star=star, closest_approach_s=float(t_ca), min_ring_radius_km=r_min,
+            sky_distance_km=d_min, sky_distance_time_s=t_d, sky_speed_km_s=speed,
+            opening_angle_deg=float(np.degrees(at_ca["opening_angle"][0])),
+            star_elevation_deg=float(np.degrees(at_ca["star_elevation"][0])),
+            distance_km=float(at_ca["distance"][0]),
+            at_window_edge=bool(t_ca <= t_start + 1.0 or t_ca >= t_end - 1.0),
+        ))
+    return out
+
+
+# --------------------------------------------------------------------------- observers
+
+
+@dataclass
+class Event:
+    """One candidate seen by one observer."""
+
+    candidate: Candidate
+    observer: Observer
+    site: object = None  # occplan.catalogs.Site or None
+    closest_approach_s: float = float("nan")
+    min_ring_radius_km: float = float("nan")
+    crosses_rings: bool = False
+    passes: list = field(default_factory=list)  # geometry.RegionPass
+    crossing_start_s: float = float("nan")
+    crossing_end_s: float = float("nan")
+    behind_planet: bool = False
+    opening_angle_deg: float = float("nan")
+    star_elevation_deg: float = float("nan")
+    distance_km: float = float("nan")
+    window_s: tuple = (float("nan"), float("nan"))
+    zones: dict | None = None  # filled by occplan.ranking
+    score: dict | None = None
+
+    @property
+    def site_name(self) -> str:
+        return self.observer.name
+
+    @property
+    def star_id(self) -> str:
+        return self.candidate.star_id
+
+    def row(self) -> dict:
+        """The DESIGN.md section 8 find fields plus what rank needs to rebuild the event."""
+        c, s = self.candidate, self.candidate.star
+        regions = sorted({p.region for p in self.passes})
+        row = {
+            "star_id": c.star_id, "body": None, "site": self.site_name,
+            "closest_approach_utc": _utc(self.closest_approach_s),
+            "min_ring_radius_km": self.min_ring_radius_km,
+            "crossing_start_utc": _utc(self.crossing_start_s) if self.crosses_rings else None,
+            "crossing_end_utc": _utc(self.crossing_end_s) if self.crosses_rings else None,
+            "regions": " ".join(r.replace(" ", "_") for r in regions),
+            "behind_planet": self.behind_planet,
+            "geocentric_closest_approach_utc": _utc(c.closest_approach_s),
+            "geocentric_min_ring_radius_km": c.min_ring_radius_km,
+            "sky_distance_km": c.sky_distance_km,
+            "opening_angle_deg": self.opening_angle_deg,
+            "star_elevation_deg": self.star_elevation_deg,
+            "distance_au": self.distance_km / 149597870.7,
+            "at_window_edge": c.at_window_edge,
+            "vmag": s.vmag, "kmag": s.kmag,
+            "star_ra_deg": s.ra_deg, "star_dec_deg": s.dec_deg,
+            "star_pm_ra_mas_yr": s.pm_ra_mas_yr, "star_pm_dec_mas_yr": s.pm_dec_mas_yr,
+            "star_parallax_mas": s.parallax_mas, "star_rv_km_s": s.rv_km_s,
+            "star_epoch_jd_tt": s.epoch_jd_tt,
+            "window_start_utc": _utc(self.window_s[0]), "window_end_utc": _utc(self.window_s[1]),
+        }
+        return row
+
+
+def _utc(t_s: float) -> str | None:
+    return None if not np.isfinite(t_s) else utc_iso(time_from_tdb_s(t_s))
+
+
+def observer_half_window_s(body, cand: Candidate, margin_km: float) -> float:
+    """Half-width of an observer's window around the geocentric closest approach (s)."""
+    reach = body.outer_ring_km + EARTH_RADIUS_KM + margin_km
+    speed = max(cand.sky_speed_km_s, 1e-3)
+    return float(min(max(reach / speed, 1800.0) + SIDE_PAD_S, MAX_HALF_WINDOW_S))
+
+
+def topocentric_event(eph, body, cand: Candidate, observer: Observer, corrections: Corrections,
+                      margin_km: float, site=None, step_s: float = 60.0) -> Event:
+    """The observer's track around a geocentric closest approach, and its ring crossings."""
+    half = observer_half_window_s(body, cand, margin_km)
+    a, b = cand.closest_approach_s - half, cand.closest_approach_s + half
+    times = window_times(a, b, step_s)
+    track = compute_track(eph, body, observer, cand.star, times, corrections)
+    ev = Event(candidate=cand, observer=observer, site=site, window_s=(a, b),
+               closest_approach_s=track.closest_approach_s,
+               min_ring_radius_km=track.closest_approach_radius_km,
+               crosses_rings=track.crosses_rings, passes=list(track.passes),
+               opening_angle_deg=float(track.meta["opening_angle_deg"]),
+               star_elevation_deg=float(track.meta["star_elevation_deg"]),
+               distance_km=float(track.meta["distance_km"]))
+    if track.passes:
+        ev.crossing_start_s = min(p.start_s for p in track.passes)
+        ev.crossing_end_s = max(p.end_s for p in track.passes)
+        ev.behind_planet = bool(any(c.behind_planet for c in track.crossings))
+    return ev
+
+
+# --------------------------------------------------------------------------- the search
+
+
+@dataclass
+class SearchResult:
+    body: object
+    candidates: list
+    events: list
+    skipped: list  # (star_id, reason)
+    meta: dict
+
+    def rows(self) -> list[dict]:
+        out = []
+        for ev in self.events:
+            row = ev.row()
+            row["body"] = self.body.name
+            out.append(row)
+        return out
+
+
+def _progress(total: int, label: str, enabled):
+    """A rich progress bar on stderr (when stderr is a terminal, or ``enabled`` is True)."""
+    show = sys.stderr.isatty() if enabled is None else bool(enabled)
+    if not show or total == 0:
+        return None
+    from rich.console import Console
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+
+    prog = Progress(TextColumn(label), BarColumn(), MofNCompleteColumn(), TimeRemainingColumn(),
+                    console=Console(file=sys.stderr), transient=True)
+    prog.start()
+    prog.task = prog.add_task(label, total=total)
+    return prog
+
+
+def _window_s(window) -> tuple[float, float]:
+    a, b = window
+    a = tdb_s_of(parse_utc(a)) if isinstance(a, str) else float(a)
+    b = tdb_s_of(parse_utc(b)) if isinstance(b, str) else float(b)
+    if b <= a:
+        raise InputError("the window end is not after its start; check --start and --end")
+    return float(a), float(b)
+
+
+def search_candidates(body, table, window, *, kernels=None,
+                      corrections: Corrections = Corrections(), margin_km: float = DEFAULT_MARGIN_KM,
+                      node_step_s: float = DEFAULT_NODE_STEP_S, pad_s: float = DEFAULT_PAD_S,
+                      progress=None):
+    """Geocentric candidates of a star table over a window (stages 1 and 2).
+
+    Parameters
+    ----------
+    body : occplan.bodies.Body
+    table : occplan.catalogs.StarTable (or a list of StarSpec)
+    window : (start, end)
+        UTC ISO strings or TDB seconds past J2000.
+    margin_km : float
+        Added to the Earth's radius in the threshold (module docstring).
+
+    Returns
+    -------
+    (list of Candidate, list of (star_id, reason) skipped, dict of search info)
+    """
+    from .catalogs import StarTable
+
+    if not isinstance(table, StarTable):
+        table = StarTable.from_stars(list(table))
+    if not np.isfinite(margin_km) or margin_km < 0:
+        raise InputError(f"--margin {margin_km} km must be >= 0")
+    eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
+    t0, t1 = _window_s(window)
+    eph.check_planet_coverage(body, time_from_tdb_s(np.array([t0, t1])))
+    eph.check_observer_coverage(Observer.geocentre(), time_from_tdb_s(np.array([t0, t1])))
+    lo, hi = t0 - pad_s, t1 + pad_s
+    try:
+        eph.check_planet_coverage(body, time_from_tdb_s(np.array([lo - 3600.0, hi + 3600.0])))
+    except CoverageError:
+        lo, hi = t0, t1  # a window at the end of the kernel: no padding
+    threshold = body.outer_ring_km + EARTH_RADIUS_KM + margin_km
+    path = planet_path(eph, body, lo, hi, node_step_s, threshold, corrections)
+    pre = prefilter(path, table)
+    candidates, skipped = [], []
+    bar = _progress(len(pre), "refining candidates", progress)
+    try:
+        for row, runs in pre:
+            star = table.star(row)
+            for first, last in runs:
+                a = path.tdb_s[max(first - 1, 0)]
+                b = path.tdb_s[min(last + 1, path.tdb_s.size - 1)]
+                try:
+                    candidates.extend(refine_candidate(eph, body, star, row, a, b, (t0, t1),
+                                                       corrections, margin_km))
+                except GeometryError as exc:
+                    skipped.append((star.name, str(exc)))
+            if bar is not None:
+                bar.advance(bar.task)
+    finally:
+        if bar is not None:
+            bar.stop()
+    candidates.sort(key=lambda c: c.closest_approach_s)
+    info = {
+        "stars_searched": len(table), "prefiltered": len(pre), "candidates": len(candidates),
+        "threshold": (f"sky-plane distance of the geocentric ray from the outer-ring ellipse "
+                      f"(R_out = {body.outer_ring_km:g} km) <= R_E {EARTH_RADIUS_KM} km + margin "
+                      f"{margin_km:g} km"),
+        "threshold_km": EARTH_RADIUS_KM + margin_km, "margin_km": margin_km,
+        "prefilter": (f"k-d tree on the planet's geocentric path, {node_step_s:g} s nodes; circle "
+                      f"radius {threshold:.0f} km at the planet ({math.degrees(path.theta_rad) * 3600:.2f}"
+                      " arcsec) plus half a node step and each star's motion allowance"),
+        "search_nodes_utc": [_utc(lo), _utc(hi)],
+    }
+    return candidates, skipped, info
+
+
+def find_events(body, table, window, observers, *, kernels=None,
+                corrections: Corrections = Corrections(), margin_km: float = DEFAULT_MARGIN_KM,
+                node_step_s: float = DEFAULT_NODE_STEP_S, include_misses: bool = False,
+                progress=None) -> SearchResult:
+    """Candidate events of a catalog over a window for each observer (all three stages).
+
+    ``observers`` is a list of :class:`occplan.ephemeris.Observer` or of
+    :class:`occplan.catalogs.Site` (whose telescope path is kept for the ranking).  Events
+    whose chord misses every ring region at that observer are dropped unless
+    ``include_misses``.
+    """
+    from .catalogs import Site
+
+    if not observers:
+        raise InputError("no observer: give --sites FILE (and --site NAME ...) or --geocentre")
+    eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
+    candidates, skipped, info = search_candidates(
+        body, table, window, kernels=kernels, corrections=corrections, margin_km=margin_km,
+        node_step_s=node_step_s, progress=progress)
+    pairs = [(o.observer(), o) if isinstance(o, Site) else (o, None) for o in observers]
+    events = []
+    misses = 0
+    bar = _progress(len(candidates) * len(pairs), "observer tracks", progress)
+    try:
+        for cand in candidates:
+            for obs, site in pairs:
+                try:
+                    ev = topocentric_event(eph, body, cand, obs, corrections, margin_km, site)
+                except GeometryError as exc:
+                    skipped.append((cand.star_id, f"{obs.name}: {exc}"))
+                    continue
+                finally:
+                    if bar is not None:
+                        bar.advance(bar.task)
+                if ev.crosses_rings or include_misses:
+                    events.append(ev)
+                else:
+                    misses += 1
+    finally:
+        if bar is not None:
+            bar.stop()
+    events.sort(key=lambda e: (e.closest_approach_s, e.site_name))
+    t0, t1 = _window_s(window)
+    meta = {
+        "occplan_version": __version__, "body": body.name, "body_file": body.path,
+        "start_utc": _utc(t0), "end_utc": _utc(t1),
+        "observers": [o.describe() | ({"telescope": s.telescope,
+                                       "min_altitude_deg": s.min_altitude_deg} if s else {})
+                      for o, s in pairs],
+        "kernels": [k["file"] for k in eph.kernels()],
+        "corrections": {"planet_deflection": bool(corrections.deflection),
+                        "barycentre_only": bool(corrections.barycentre_only),
+                        "aberration": "none (astrometric star and planet)"},
+        "search": info,
+        "observer_misses": misses,
+        "skipped": [{"star_id": s, "reason": r} for s, r in skipped],
+        "closest_approach": "time of the minimum ring-plane radius for that observer",
+    }
+    report = getattr(table, "report", None)
+    if report is not None:
+        meta["catalog"] = report.describe()
+    return SearchResult(body=body, candidates=candidates, events=events, skipped=skipped,
+                        meta=meta)
