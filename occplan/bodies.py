@@ -70,6 +70,15 @@ class RingRegion:
     viscosity_cm2_s: float
     optical_depth: float
     source: str
+    # Semi-major axes of the edges of a narrow eccentric ring (whose inner_km/outer_km are its
+    # radial envelope over all longitudes); used to match resonance-held edges.
+    edge_inner_a_km: float | None = None
+    edge_outer_a_km: float | None = None
+
+    @property
+    def edge_a_km(self) -> tuple[float, float]:
+        """(inner, outer) edge semi-major axes, or the region limits for a circular ring."""
+        return (self.edge_inner_a_km or self.inner_km, self.edge_outer_a_km or self.outer_km)
 
 
 @dataclass(frozen=True)
@@ -201,6 +210,8 @@ def _parse(data: dict, path: str) -> Body:
                 viscosity_cm2_s=float(r.get("viscosity_cm2_s", 100.0)),
                 optical_depth=float(r.get("optical_depth", 0.5)),
                 source=str(r.get("source", "")),
+                edge_inner_a_km=(float(r["edge_inner_a_km"]) if "edge_inner_a_km" in r else None),
+                edge_outer_a_km=(float(r["edge_outer_a_km"]) if "edge_outer_a_km" in r else None),
             )
             for r in _need(data, "rings", where)
         )

@@ -46,14 +46,10 @@ def _compute_resonances(body, max_order, top, min_torque, sigma, viscosity):
     if min_torque is None and len(res) > top:
         # rank by the torque itself (per-sigma torque x the region's surface density): a
         # resonance in a tenuous ring drives a weak wave however large its coefficient
-        res = sorted(res, key=lambda r: -r.torque_per_sigma * _sigma(r))[:top]
+        res = sorted(res, key=lambda r: -r.torque_dyn_cm)[:top]
         res.sort(key=lambda r: r.resonance_radius_km)
     return tuple(res)
 
-
-def _sigma(r) -> float:
-    s = r.surface_density_g_cm2
-    return s if np.isfinite(s) and s > 0 else 0.0
 
 
 def select_resonances(body, max_order: int = 3, top: int = DEFAULT_TOP_ZONES, min_torque=None,

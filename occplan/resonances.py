@@ -134,6 +134,13 @@ class Resonance:
     edge: bool = False
     strength_method: str = "closed form"
 
+    @property
+    def torque_dyn_cm(self) -> float:
+        """The torque itself: torque_per_sigma x the region's surface density (0 outside
+        every ring region, where there is no ring material to launch a wave in)."""
+        sig = self.surface_density_g_cm2
+        return self.torque_per_sigma * sig if self.region and np.isfinite(sig) and sig > 0 else 0.0
+
     def to_row(self) -> dict:
         """A dict with the DESIGN.md sec. 8 zones names first, then the extra fields."""
         return dataclasses.asdict(self)
@@ -451,7 +458,8 @@ def mark_edges(body, res, edge_distance_km=EDGE_DISTANCE_KM, viscosity_cm2_s=Non
     ``res`` holds (kind, m, k, p, r_km, torque_km4_s2, n_rad_s) tuples.  Examples this finds
     in the built-in files: Mimas 2:1 at the B ring outer edge, Janus 7:6 at the A ring outer
     edge, Cordelia 23:22 at the Uranian delta ring's outer edge.  Narrow eccentric rings whose body-file limits are radial
-    envelopes (Uranus's epsilon ring) need edge semi-major axes in the body file to be found.
+    envelopes (Uranus's epsilon ring) are matched on the edge semi-major axes the body file
+    gives (``edge_inner_a_km``/``edge_outer_a_km``).
     """
     hits = []
     for i, (kind, m, k, p, r, torque, n) in enumerate(res):
@@ -464,7 +472,8 @@ def mark_edges(body, res, edge_distance_km=EDGE_DISTANCE_KM, viscosity_cm2_s=Non
         if spacing <= edge_distance_km:
             continue
         for reg in body.rings:
-            edge = reg.outer_km if kind == "ILR" else reg.inner_km
+            inner_a, outer_a = reg.edge_a_km
+            edge = outer_a if kind == "ILR" else inner_a
             if abs(r - edge) > edge_distance_km:
                 continue
             sigma_kg_km2 = reg.surface_density_g_cm2 * G_CM2_TO_KG_KM2

@@ -44,7 +44,8 @@ def register(app: typer.Typer) -> None:
                               satellites=satellite, min_torque=min_torque, sigma_g_cm2=sigma,
                               viscosity_cm2_s=viscosity, max_m=max_m)
         rows = [x.to_row() for x in res]
-        ranked = sorted(range(len(rows)), key=lambda i: -rows[i]["torque_per_sigma"])
+        # strongest by the torque itself (per-sigma torque x region sigma; 0 outside the rings)
+        ranked = sorted(range(len(rows)), key=lambda i: -res[i].torque_dyn_cm)
         top = set(ranked[:max(strongest, 0)])
         for i, row in enumerate(rows):
             row["strong"] = i in top
@@ -61,7 +62,8 @@ def register(app: typer.Typer) -> None:
             "strongest_marked": strongest,
         }
         header = (f"# {b.name}: {len(rows)} resonances, order <= {max_order}, m <= {max_m}; "
-                  f"torque_per_sigma in cm^4 s^-2; strong = the {strongest} strongest\n")
+                  f"torque_per_sigma in cm^4 s^-2; strong = the {strongest} strongest by torque "
+                  "(x region sigma)\n")
         if fmt == "table":
             for row in rows:
                 row["strong"] = "*" if row["strong"] else ""
