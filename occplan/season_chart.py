@@ -1,0 +1,121 @@
+"""Season chart: candidate events along the window, their scores, and the rings' opening angle.
+
+``season_chart(rows, ax=None, aspect=None)`` takes find/rank rows (dicts with
+``closest_approach_utc``, ``score``, ``site``) and, optionally, the opening angle over the
+window (``(times_utc, opening_angle_deg)``, e.g. from :func:`occplan.chords.aspect`); it
+returns the Axes and never calls ``plt.show()``.
+"""
+
+from __future__ import annotations
+
+from datetime import datetime
+
+import numpy as np
+
+
+def _date(text: str) -> datetime:
+    return datetime.fromisoformat(str(text).replace("Z", "+00:00"))
+
+
+def season_chart(rows: list[dict], ax=None, aspect=None, title: str | None = None,
+                 label_top: int = 5):
+    """Scores of events against time (one marker colour per site) and B on a second axis.
+
+    Parameters
+    ----------
+    rows : list of dict
+        find or rank rows.
+    aspect : (list of str, array) or None
+        UTC times and opening angle B (deg) over the window.
+    label_top : int
+        Annotate the star ids of this many best-scoring events.
+
+    Returns
+    -------
+    matplotlib.axes.Axes
+    """
+    import matplotlib
+
+    if ax is None:
+        ax = _figure().add_subplot()
+    sites = sorted({r["site"] for r in rows})
+    cmap = matplotlib.colormaps["tab10"]
+    for i, site in enumerate(sites):
+        sel = [r for r in rows if r["site"] == site]
+        x = [_date(r["closest_approach_utc"]) for r in sel]
+        y = [r.get("score") or 0.0 for r in sel]
+        size = [20 + 4 * (r.get("zones_resolvable") or 0) for r in sel]
+        ax.scatter(x, y, s=size, color=cmap(i % 10), label=site, alpha=0.8, edgecolor="k",
+                   linewidth=0.4, zorder=3)
+    best = sorted(rows, key=lambda r: -(r.get("score") or 0.0))[:max(label_top, 0)]
+    for r in best:
+        ax.annotate(str(r["star_id"]), (_date(r["closest_approach_utc"]), r.get("score") or 0.0),
+                    textcoords="offset points", xytext=(4, 4), fontsize=7)
+    ax.set_xlabel("closest approach (UTC)")
+    ax.set_ylabel("score (resolved-zone equivalents)")
+    ax.set_ylim(bottom=0)
+    ax.grid(alpha=0.3)
+    handles, labels = ax.get_legend_handles_labels()
+    if aspect is not None:
+        times, b_deg = aspect
+        ax2 = ax.twinx()
+        ax2.plot([_date(t) for t in times], np.asarray(b_deg, dtype=float), color="0.4", lw=1.2,
+                 ls="--", label="opening angle B")
+        ax2.axhline(0.0, color="0.6", lw=0.6)
+        ax2.set_ylabel("opening angle B (deg)")
+        h2, l2 = ax2.get_legend_handles_labels()
+        handles, labels = handles + h2, labels + l2
+    if handles:
+        ax.legend(handles, labels, loc="upper left", fontsize=8, title="site (marker size: resolvable zones)",
+                  title_fontsize=8)
+    ax.set_title(title or "Candidate ring occultations over the season")
+    ax.figure.autofmt_xdate()
+    return ax
+
+
+def _figure():
+    """A figure on an Agg canvas of its own (no pyplot, no global state)."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=(10, 4.5))
+    FigureCanvasAgg(fig)
+    return fig
+
+
+def season_aspect(body, window, kernels=None, points: int = 200):
+    """(times_utc, B_deg) over the window from the geocentre, for :func:`season_chart`."""
+    from .chords import _window_s, aspect
+    from .ephemeris import Observer
+
+    t0, t1 = _window_s(window)
+    rows, _ = aspect(body, Observer.geocentre(), (t0, t1), step_s=max((t1 - t0) / points, 60.0),
+                     kernels=kernels)
+    return [r["time_utc"] for r in rows], [r["opening_angle_deg"] for r in rows]
+
+
+def write_season_chart(path, rows: list[dict], body, window, kernels=None, overwrite=False,
+                       title: str | None = None) -> None:
+    """Draw the season chart into an image file (atomic write; refuses to overwrite)."""
+    import os
+    import tempfile
+    from pathlib import Path
+
+    from .errors import InputError
+    from .tables import check_out
+
+    p = Path(path)
+    check_out(p, overwrite)
+    if p.suffix.lower() not in (".png", ".pdf", ".svg"):
+        raise InputError(f"--chart {path}: give a .png, .pdf or .svg file name")
+    fig = _figure()
+    season_chart(rows, ax=fig.add_subplot(), aspect=season_aspect(body, window, kernels), title=title)
+    fd, tmp = tempfile.mkstemp(dir=p.parent if str(p.parent) else ".", suffix=p.suffix)
+    os.close(fd)
+    try:
+        fig.savefig(tmp, dpi=120, bbox_inches="tight")
+        os.replace(tmp, p)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
