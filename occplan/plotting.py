@@ -18,6 +18,7 @@ when the planet hides the star there or the site cannot observe it then.
 
 from __future__ import annotations
 
+import itertools
 import math
 import os
 import tempfile
@@ -26,6 +27,7 @@ from pathlib import Path
 
 import matplotlib.dates as mdates
 import numpy as np
+from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch, Rectangle
@@ -76,9 +78,15 @@ def _hhmm(tdb_s) -> str:
     return _utc(tdb_s).strftime("%H:%M")
 
 
-def _new_axes(figsize):
+def _new_figure(figsize) -> Figure:
+    """A figure on an Agg canvas of its own (no pyplot, no global state)."""
     fig = Figure(figsize=figsize, layout="constrained")
-    return fig.add_subplot()
+    FigureCanvasAgg(fig)
+    return fig
+
+
+def _new_axes(figsize):
+    return _new_figure(figsize).add_subplot()
 
 
 def resonance_strength(res) -> float:
@@ -169,7 +177,7 @@ def _segments(t, mask):
     edges = np.flatnonzero(np.diff(mask.astype(int))) + 1
     bounds = np.r_[0, edges, len(t)]
     return [(int(i0), int(min(i1 + 1, len(t))), bool(mask[i0]))
-            for i0, i1 in zip(bounds[:-1], bounds[1:])]
+            for i0, i1 in itertools.pairwise(bounds)]
 
 
 def _add_polygon(ax, geom, gid, **style):
@@ -247,7 +255,7 @@ def sky_view(report, ax=None, tick_minutes: int | None = None):
         poly = scene.rings[reg.name]
         far = far_side(poly, bstar, pole, body.outer_ring_km)
         near = poly.difference(far)
-        style = dict(facecolor=colours[reg.name], edgecolor="none", linewidth=0)
+        style = {"facecolor": colours[reg.name], "edgecolor": "none", "linewidth": 0}
         _add_polygon(ax, far.difference(scene.disk), f"ring-far:{reg.name}", zorder=Z_FAR, **style)
         _add_polygon(ax, near, f"ring-near:{reg.name}", zorder=Z_NEAR, label=reg.name, **style)
     _add_polygon(ax, scene.disk, "planet-disk", facecolor=DISK_COLOUR, edgecolor=LIMB_COLOUR,
@@ -314,11 +322,11 @@ def _chord_ticks(ax, report, t0, t1, tick_minutes):
     for ti, fi, gi, ox, oy in zip(ticks, f, g, nx, ny):
         ax.annotate(_hhmm(ti), (fi, gi), xytext=(9 * ox, 9 * oy), textcoords="offset points",
                     fontsize=7, ha="center", va="center", zorder=Z_CHORD + 1,
-                    bbox=dict(boxstyle="round,pad=0.12", fc="white", ec="none", alpha=0.75))
+                    bbox={"boxstyle": "round,pad=0.12", "fc": "white", "ec": "none", "alpha": 0.75})
     # direction of motion at the last tick
     i = ticks.size - 1
     ax.annotate("", xy=(f[i] + 0.02 * (f[i] - f[0]), g[i] + 0.02 * (g[i] - g[0])) if i else (f[i], g[i]),
-                xytext=(f[i], g[i]), arrowprops=dict(arrowstyle="-|>", color="black", lw=1.2),
+                xytext=(f[i], g[i]), arrowprops={"arrowstyle": "-|>", "color": "black", "lw": 1.2},
                 zorder=Z_CHORD)
 
 
@@ -342,8 +350,8 @@ def _contacts(ax, report):
 def _compass(ax):
     """N and E arrows (north up, east left) in the upper right corner."""
     x0, y0, length = 0.955, 0.72, 0.16
-    kw = dict(xycoords="axes fraction", textcoords="axes fraction", zorder=10,
-              arrowprops=dict(arrowstyle="-|>", color="black", lw=1.2))
+    kw = {"xycoords": "axes fraction", "textcoords": "axes fraction", "zorder": 10,
+              "arrowprops": {"arrowstyle": "-|>", "color": "black", "lw": 1.2}}
     ax.annotate("", xy=(x0, y0 + length), xytext=(x0, y0), **kw)
     ax.annotate("", xy=(x0 - length * _aspect_fix(ax), y0), xytext=(x0, y0), **kw)
     ax.text(x0, y0 + length + 0.03, "N", transform=ax.transAxes, ha="center", va="bottom",
@@ -454,10 +462,10 @@ def _zone_marks(ax, report, max_labels):
             ax.annotate(zone_name(res), xy=(_to_dates(report, _zone_time(z)), res.resonance_radius_km),
                         xytext=(x_label, yl), fontsize=6.5, ha="center", va="center",
                         color="black" if k == 0 else "none", zorder=5,
-                        arrowprops=dict(arrowstyle="-", lw=0.45, color="#666666", alpha=0.8,
-                                        shrinkA=1, shrinkB=2),
-                        bbox=dict(boxstyle="round,pad=0.15", fc="white", ec="none",
-                                  alpha=0.8 if k == 0 else 0.0),
+                        arrowprops={"arrowstyle": "-", "lw": 0.45, "color": "#666666", "alpha": 0.8,
+                                        "shrinkA": 1, "shrinkB": 2},
+                        bbox={"boxstyle": "round,pad=0.15", "fc": "white", "ec": "none",
+                                  "alpha": 0.8 if k == 0 else 0.0},
                         gid="zone-label" if k == 0 else "zone-leader")
 
 
@@ -583,7 +591,7 @@ def event_figure(report, max_labels: int = DEFAULT_MAX_LABELS, max_zones: int = 
 
     Left: sky view (top) and radius versus time (bottom); right: zone coverage.
     """
-    fig = Figure(figsize=(13.5, 9.0), layout="constrained")
+    fig = _new_figure((13.5, 9.0))
     fig.get_layout_engine().set(rect=(0.0, 0.02, 1.0, 0.98))  # room for the footer line
     grid = fig.add_gridspec(2, 2, width_ratios=[2.1, 1.0], height_ratios=[1.0, 1.15])
     sky = fig.add_subplot(grid[0, 0])
@@ -616,28 +624,30 @@ def _single(report, panel):
 
 
 def _targets(out, fmt, panel, individual):
-    """The output paths and what goes into each."""
+    """[(path, panel), ...] to write, and the format."""
+    if panel not in PANELS:
+        raise InputError(f"unknown panel {panel!r}; choose one of {', '.join(PANELS)}")
     path = Path(out)
-    if path.is_dir() or path.suffix == "":
+    folder = path.is_dir() or path.suffix == ""
+    if folder:
         fmt = (fmt or "png").lower()
-        base = path / "event"
+        stem, parent = "event", path
     else:
         suffix = path.suffix.lower().lstrip(".")
         if suffix not in FORMATS:
             raise InputError(f"cannot write a figure to {str(path)!r}: use a .png or .pdf file name")
         if fmt is not None and fmt.lower() != suffix:
             raise InputError(f"format {fmt!r} does not match the file name {path.name!r}")
-        fmt = suffix
-        base = path.with_suffix("")
+        fmt, stem, parent = suffix, path.stem, path.parent
     if fmt not in FORMATS:
         raise InputError(f"unknown figure format {fmt!r}; choose png or pdf")
-    if panel not in PANELS:
-        raise InputError(f"unknown panel {panel!r}; choose one of {', '.join(PANELS)}")
-    main = base.with_name(base.name + ("" if panel == "all" else f"_{panel}") + f".{fmt}") \
-        if path.is_dir() or path.suffix == "" else path
+    if folder:
+        main = parent / (stem + ("" if panel == "all" else f"_{panel}") + f".{fmt}")
+    else:
+        main = path
     targets = [(main, panel)]
     if individual and panel == "all":
-        targets += [(base.with_name(f"{base.name}_{p}.{fmt}"), p) for p in PANELS[1:]]
+        targets += [(parent / f"{stem}_{p}.{fmt}", p) for p in PANELS[1:]]
     return targets, fmt
 
 

@@ -1,0 +1,79 @@
+"""`occplan plot`: figures of one candidate event (sky view, radius vs time, zone coverage)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from ..errors import InputError, OutputExistsError
+from ..telescope import load_telescope
+from . import common
+from . import options as o
+
+FIGURE_SUFFIXES = (".png", ".pdf")
+PANEL_CHOICES = ("all", "sky", "radius", "coverage")
+
+FigureOut = Annotated[Path, typer.Option("--out", help="Figure file to write: .png or .pdf.")]
+Panel = Annotated[str, typer.Option("--panel", help="What to draw: all (the three panels on one page), sky, radius or coverage.")]
+
+
+def _check_figure_out(out: Path, overwrite: bool, panel: str) -> None:
+    """Refuse a bad name, an unknown panel or an existing file before any work is done."""
+    if out.suffix.lower() not in FIGURE_SUFFIXES:
+        raise InputError(f"--out {out} must end in .png or .pdf")
+    if panel not in PANEL_CHOICES:
+        raise InputError(f"--panel {panel!r} is not one of {', '.join(PANEL_CHOICES)}")
+    if out.exists() and not overwrite:
+        raise OutputExistsError(f"{out} exists; pass --overwrite to replace it")
+    parent = out.parent if str(out.parent) else Path(".")
+    if not parent.is_dir():
+        raise InputError(f"folder {str(parent)!r} of --out does not exist")
+
+
+def register(app: typer.Typer) -> None:
+    @app.command("plot")
+    @o.user_errors
+    def plot(
+        out: FigureOut,
+        body: o.Body = "saturn",
+        star: o.Star = None, pm_ra: o.PmRa = 0.0, pm_dec: o.PmDec = 0.0,
+        parallax: o.Parallax = 0.0, rv: o.Rv = 0.0, star_epoch: o.StarEpoch = "2016.0",
+        vmag: o.Vmag = None, kmag: o.Kmag = None,
+        catalog: o.Catalog = None, star_id: o.StarId = None,
+        site: o.Site = None, sites: o.Sites = None, lat: o.Lat = None, lon: o.Lon = None,
+        height: o.Height = 0.0, geocentre: o.Geocentre = False, observer_id: o.ObserverId = None,
+        start: o.Start = None, end: o.End = None, step: o.Step = 10.0,
+        kernel: o.Kernel = None, no_deflection: o.NoDeflection = False,
+        barycentre: o.Barycentre = False,
+        telescope: o.Telescope = None, cadence: o.Cadence = None, band: o.Band = None,
+        aperture: o.Aperture = None, samples_per_wavelength: o.SamplesPerWavelength = None,
+        max_order: o.MaxOrder = 3, sigma: o.Sigma = None,
+        luminosity_class: o.LuminosityClass = "auto", min_snr: o.MinSnr = 3.0,
+        overwrite: o.Overwrite = False, panel: Panel = "all",
+    ):
+        """Draw one candidate event: sky-plane view, ring radius vs time, zone coverage.
+
+        Example: occplan plot --body saturn --star "23.9962 7.4705" --vmag 9.5 --kmag 6.0
+        --lat -25 --lon 160 --start 2027-06-14T22:00Z --end 2027-06-15T04:00Z --out event.pdf
+        """
+        panel = panel.lower()
+        _check_figure_out(out, overwrite, panel)
+        if sigma is not None and sigma < 0:
+            raise InputError(f"--sigma {sigma} g/cm^2 is negative")
+        tel = load_telescope(telescope, cadence_s=cadence, band=band.upper() if band else None,
+                             aperture_m=aperture)
+        from .. import events, plotting  # matplotlib only when a figure is asked for
+
+        report = events.evaluate_event(
+            common.body(body),
+            common.star(star, pm_ra, pm_dec, parallax, rv, star_epoch, vmag, kmag, catalog, star_id),
+            common.observer(site, sites, lat, lon, height, geocentre, observer_id),
+            common.window(start, end), telescope=tel, kernels=kernel,
+            deflection=not no_deflection, barycentre_only=barycentre, step_s=step,
+            max_order=max_order, sigma_g_cm2=sigma, samples_per_wavelength=samples_per_wavelength,
+            luminosity_class=luminosity_class, min_snr=min_snr,
+        )
+        for path in plotting.save_event_figures(report, out, overwrite=overwrite, panel=panel):
+            typer.echo(f"wrote {path}", err=True)
