@@ -214,7 +214,7 @@ def _reasons(s: dict, records: list[dict]) -> str:
     if all(r.get("usable") is None for r in records):
         parts.append("observability not evaluated")
     if all(r.get("snr_per_element") is None or not np.isfinite(r["snr_per_element"]) for r in records):
-        parts.append("SNR not evaluated (no magnitude)")
+        parts.append("SNR not evaluated (magnitude unknown, or the planet below the horizon)")
     if s["best_zone"]:
         parts.append(f"best: {s['best_zone']}")
     return "; ".join(parts)
