@@ -21,6 +21,7 @@ from __future__ import annotations
 import itertools
 import math
 import os
+import re
 import tempfile
 from datetime import datetime, timedelta
 from pathlib import Path
@@ -210,11 +211,37 @@ def _round_ticks(t0: float, t1: float, step_min: int) -> np.ndarray:
     return t0 + offset + 60.0 * step_min * np.arange(0, int((t1 - t0 - offset) // (60 * step_min)) + 1)
 
 
+def _observer_label(observer) -> str:
+    """'site 30.00° S, 45.00° E' for an unnamed site, else the observer's name."""
+    if observer.kind == "site":
+        auto = f"{observer.lat_deg:.4f},{observer.lon_deg:.4f}"
+        place = (f"{abs(observer.lat_deg):.2f}° {'N' if observer.lat_deg >= 0 else 'S'}, "
+                 f"{abs(observer.lon_deg):.2f}° {'E' if observer.lon_deg >= 0 else 'W'}")
+        return f"site {place}" if observer.name in ("", auto) else f"{observer.name} ({place})"
+    if observer.kind == "geocentre":
+        return "the geocentre"
+    return observer.name
+
+
+def _star_label(star) -> str:
+    """The star's name, or its ICRS position in sexagesimal when it has none (or the name is
+    just the numbers typed on the command line)."""
+    if star.name and re.search(r"[A-Za-z]", star.name):
+        return star.name
+    ra_h = (star.ra_deg / 15.0) % 24.0
+    h, m = int(ra_h), int((ra_h * 60) % 60)
+    sec = (ra_h * 3600) % 60
+    d = abs(star.dec_deg)
+    dd, dm = int(d), int((d * 60) % 60)
+    ds = (d * 3600) % 60
+    sign = "+" if star.dec_deg >= 0 else "-"
+    return f"{h:02d}h{m:02d}m{sec:05.2f}s {sign}{dd:02d}°{dm:02d}'{ds:04.1f}\""
+
+
 def _event_title(report) -> str:
     tr = report.track
-    star = tr.star.name or f"RA {tr.star.ra_deg:.5f} Dec {tr.star.dec_deg:+.5f}"
-    return (f"{tr.body.name} ring occultation of star {star} from {tr.observer.name}, "
-            f"{_utc(tr.closest_approach_s):%Y-%m-%d}")
+    return (f"{tr.body.name} ring occultation of star {_star_label(tr.star)} from "
+            f"{_observer_label(tr.observer)}, {_utc(tr.closest_approach_s):%Y-%m-%d}")
 
 
 # --------------------------------------------------------------------------- sky view
@@ -292,7 +319,7 @@ def sky_view(report, ax=None, tick_minutes: int | None = None):
     ax.yaxis.set_major_formatter(KM)
     ax.set_xlabel("f, offset east of the planet centre (10$^3$ km)   [east is to the left]")
     ax.set_ylabel("g, offset north (10$^3$ km)")
-    ax.set_title(f"Sky plane from {tr.observer.name}: B = {meta['opening_angle_deg']:+.2f}°, "
+    ax.set_title(f"Sky plane from {_observer_label(tr.observer)}: B = {meta['opening_angle_deg']:+.2f}°, "
                  f"B* = {meta['star_elevation_deg']:+.2f}°, P = {meta['pole_position_angle_deg']:.2f}°, "
                  f"distance {meta['distance_km'] / 149597870.7:.3f} AU", fontsize=10)
     _compass(ax)
