@@ -362,6 +362,7 @@ def read_catalog_table(path: str | Path, column_map: dict | None = None,
     rv = np.where(np.isfinite(rv), rv, 0.0)
 
     idx = np.nonzero(keep)[0]
+    report.skipped.sort(key=lambda item: item[0])
     report.stars = int(idx.size)
     if idx.size == 0:
         raise DataFileError(f"catalog {str(p)!r}: no usable star ({report.summary()})")
