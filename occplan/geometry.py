@@ -11,7 +11,8 @@ For reception times t at the observer O(t) (barycentric ICRF, km; TDB Julian dat
 4. Light deflection by the planet: the ray that reaches the observer with sky-plane impact
    parameter b passed the planet at b' = (b + sqrt(b^2 + 4 R_E^2))/2, R_E^2 = 4 GM D / c^2
    (Einstein-radius form of the point-mass deflection alpha = 4GM/(c^2 b'); about +23 km at
-   100,000 km for Saturn at 9 AU).  The ray is shifted outward in the sky plane accordingly.
+   100,000 km for Saturn at 9 AU).  The ray is shifted outward in the sky plane accordingly
+   (tapered smoothly inside the polar radius, where the star is hidden anyway).
 5. Ring radius r = |rho|; inertial ring longitude from the ascending node of the ring plane on
    the ICRF equator: N = z x n/|z x n|, M = n x N, longitude = atan2(rho.M, rho.N).
 6. Sky plane at the planet: f = z x s/|z x s| (east), g = s x f (north), offsets in km.
@@ -108,9 +109,14 @@ def exact_geometry(eph, body, observer, star, tdb_s, corrections: Corrections = 
     if corrections.deflection:
         b = np.linalg.norm(d, axis=0)
         re2 = 4.0 * body.gm_km3_s2 * distance / SPEED_OF_LIGHT_KM_S**2
-        b_true = 0.5 * (b + np.sqrt(b * b + 4.0 * re2))
-        shift = b_true - b
-        d = d * (b_true / np.where(b > 0, b, 1.0))
+        # Inside the polar radius the ray is blocked by the planet whatever its deflection;
+        # there b is replaced by b + (Rp - b)^3 / Rp^2 (C2-continuous at Rp, >= 0.6 Rp) so
+        # the hidden stretch of the track stays smooth for the splines.  Visible rays always
+        # have b >= Rp, so they get the exact deflection.
+        rp = body.polar_radius_km
+        b_eff = np.where(b < rp, b + (rp - b) ** 3 / rp**2, b)
+        shift = 0.5 * (b_eff + np.sqrt(b_eff * b_eff + 4.0 * re2)) - b_eff
+        d = d * ((b + shift) / np.where(b > 0, b, 1.0))
     origin = planet + d - _dot(q, s) * s  # a point on the (shifted) ray: the closest point
     lam = _dot(n, planet - origin) / _dot(n, s)
     rho = origin + lam * s - planet
