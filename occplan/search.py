@@ -481,6 +481,15 @@ def _window_s(window) -> tuple[float, float]:
     return float(a), float(b)
 
 
+def check_window(body, window, kernels=None) -> tuple[float, float]:
+    """The window in TDB seconds, after checking it against the kernels' coverage."""
+    eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
+    t0, t1 = _window_s(window)
+    eph.check_planet_coverage(body, time_from_tdb_s(np.array([t0, t1])))
+    eph.check_observer_coverage(Observer.geocentre(), time_from_tdb_s(np.array([t0, t1])))
+    return t0, t1
+
+
 def search_candidates(body, table, window, *, kernels=None,
                       corrections: Corrections = Corrections(), margin_km: float = DEFAULT_MARGIN_KM,
                       node_step_s: float = DEFAULT_NODE_STEP_S, pad_s: float = DEFAULT_PAD_S,
@@ -507,9 +516,7 @@ def search_candidates(body, table, window, *, kernels=None,
     if not np.isfinite(margin_km) or margin_km < 0:
         raise InputError(f"--margin {margin_km} km must be >= 0")
     eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
-    t0, t1 = _window_s(window)
-    eph.check_planet_coverage(body, time_from_tdb_s(np.array([t0, t1])))
-    eph.check_observer_coverage(Observer.geocentre(), time_from_tdb_s(np.array([t0, t1])))
+    t0, t1 = check_window(body, window, kernels)
     lo, hi = t0 - pad_s, t1 + pad_s
     try:
         eph.check_planet_coverage(body, time_from_tdb_s(np.array([lo - 3600.0, hi + 3600.0])))

@@ -86,12 +86,13 @@ def run_find(body, catalog, columns, allow_no_motion, start, end, sites, site, l
     window = common.window(start, end)
     obs = observers(sites, site, lat, lon, height, geocentre)
     w = ranking.load_weights(weights) if zones else None
+    search.check_window(b, window, kernel)  # before reading a large catalog
     table = read_catalog_table(catalog, column_map(columns), allow_no_motion)
-    ranking.print_note(table.report.summary())
     corrections = Corrections(deflection=not no_deflection, barycentre_only=barycentre)
     result = search.find_events(b, table, window, obs, kernels=kernel, corrections=corrections,
                                 margin_km=margin, include_misses=include_misses,
                                 progress=progress)
+    ranking.print_note(table.report.summary())
     if zones:
         ranking.score_events(result, kernels=kernel, corrections=corrections, settings=settings,
                              weights=w, progress=progress)
