@@ -119,6 +119,7 @@ class SkyScene:
         # what the observer sees of the rings: the near side everywhere, the far side off the disk
         self.visible_rings = self.near_rings.union(far.difference(self.disk))
         self.visible_disk = self.disk.difference(self.near_rings)
+        self._fill_cache = {}
 
     @classmethod
     def for_track(cls, track: Track) -> "SkyScene":
@@ -128,7 +129,17 @@ class SkyScene:
 
     def aperture_fill(self, f_km: float, g_km: float, radius_km: float) -> dict:
         """Fractions of a photometric aperture (circle of ``radius_km`` around the star at
-        sky offset (f, g)) covered by visible rings and by the visible planet disk."""
+        sky offset (f, g)) covered by visible rings and by the visible planet disk.
+
+        Positions are quantized to a tenth of the aperture radius and cached: the fill
+        fractions change by a few per cent at most over that distance."""
+        q = radius_km / 10.0
+        key = (round(f_km / q), round(g_km / q), round(radius_km, 3))
+        if key not in self._fill_cache:
+            self._fill_cache[key] = self._fill(key[0] * q, key[1] * q, radius_km)
+        return self._fill_cache[key]
+
+    def _fill(self, f_km: float, g_km: float, radius_km: float) -> dict:
         circle = Point(f_km, g_km).buffer(radius_km, 64)
         area = circle.area
         ring = min(circle.intersection(self.visible_rings).area / area, 1.0)
@@ -153,11 +164,32 @@ def radial_projection_factor(track: Track, when_s) -> np.ndarray:
 
 def times_at_radius(track: Track, radius_km: float) -> np.ndarray:
     """All times in the window when the chord crosses ring radius ``radius_km`` (sorted)."""
-    from .geometry import _crossing_times
+    return crossing_times_many(track, np.array([float(radius_km)]))[0]
 
-    nodes = track.interp.node_s
-    return np.sort(_crossing_times(track.interp, nodes, track.interp.radius(nodes), radius_km,
-                                   track.tdb_s[0], track.tdb_s[-1]))
+
+def crossing_times_many(track: Track, radii_km) -> list[np.ndarray]:
+    """Crossing times of many radii at once (vectorized form of :func:`times_at_radius`).
+
+    Brackets: node intervals where r - R changes sign; each linear guess is refined by four
+    Newton passes on the interpolated r(t) (as in :func:`occplan.geometry._crossing_times`).
+    """
+    interp = track.interp
+    nodes = interp.node_s
+    radii = np.atleast_1d(np.asarray(radii_km, dtype=float))
+    f = interp.radius(nodes)[:, None] - radii[None, :]
+    i, j = np.nonzero(np.sign(f[:-1]) * np.sign(f[1:]) < 0)
+    x = nodes[i] + (nodes[i + 1] - nodes[i]) * f[i, j] / (f[i, j] - f[i + 1, j])
+    target = radii[j]
+    for _ in range(4):
+        if x.size == 0:
+            break
+        x = np.clip(x - (interp.radius(x) - target) / interp.radial_velocity(x),
+                    nodes[i], nodes[i + 1])
+    keep = (x >= track.tdb_s[0]) & (x <= track.tdb_s[-1])
+    out = [[] for _ in range(radii.size)]
+    for jj, xx in zip(j[keep], x[keep]):
+        out[jj].append(xx)
+    return [np.sort(np.array(v)) for v in out]
 
 
 def sides(track: Track) -> list[tuple[str, float, float]]:
@@ -197,16 +229,17 @@ class ZoneCrossing:
     usable: bool | None = None  # observable at the site (None: not evaluated)
 
 
-def _radius_window(track: Track, side_start: float, side_end: float, r_lo: float, r_hi: float):
-    """Times [a, b] (within a side) when r lies in [r_lo, r_hi], or None."""
-    interp = track.interp
-    ra, rb = interp.radius(np.array([side_start, side_end]))
-    lo_side, hi_side = min(ra, rb), max(ra, rb)
+def _radius_window(track: Track, side_start: float, side_end: float, r_lo: float, r_hi: float,
+                   t_lo, t_hi, r_side):
+    """Times [a, b] (within a side) when r lies in [r_lo, r_hi], or None.
+
+    ``t_lo``/``t_hi`` are the crossing times of r_lo and r_hi, ``r_side`` the radii at the
+    side's two ends."""
+    lo_side, hi_side = min(r_side), max(r_side)
     if r_hi < lo_side or r_lo > hi_side:
         return None
-    times = [t for t in np.r_[times_at_radius(track, r_lo), times_at_radius(track, r_hi)]
-             if side_start <= t <= side_end]
-    inside = [t for t in (side_start, side_end) if r_lo <= interp.radius(np.array([t]))[0] <= r_hi]
+    times = [t for t in np.r_[t_lo, t_hi] if side_start <= t <= side_end]
+    inside = [t for t, r in zip((side_start, side_end), r_side) if r_lo <= r <= r_hi]
     pts = sorted(times + inside)
     if not pts:
         return None
@@ -261,13 +294,19 @@ def zone_crossings(track: Track, resonances, *, cadence_s: float, fresnel_km: fl
     hidden = hidden_intervals(track) if hidden is None else hidden
     out = []
     interp = track.interp
+    resonances = list(resonances)
+    radii = np.array([[r.zone_inner_km, r.zone_outer_km, r.resonance_radius_km] for r in resonances]
+                     ).reshape(-1)
+    crossing = crossing_times_many(track, radii) if radii.size else []
     for side, a, b in sides(track):
-        for res in resonances:
-            win = _radius_window(track, a, b, res.zone_inner_km, res.zone_outer_km)
+        r_side = interp.radius(np.array([a, b]))
+        for k, res in enumerate(resonances):
+            win = _radius_window(track, a, b, res.zone_inner_km, res.zone_outer_km,
+                                 crossing[3 * k], crossing[3 * k + 1], r_side)
             if win is None:
                 continue
             start, end = win
-            t_res = [t for t in times_at_radius(track, res.resonance_radius_km) if a <= t <= b]
+            t_res = [t for t in crossing[3 * k + 2] if a <= t <= b]
             when = t_res[0] if t_res else 0.5 * (start + end)
             probe = np.array([start, when, end])
             speeds = np.abs(interp.radial_velocity(probe))

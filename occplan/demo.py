@@ -1,0 +1,196 @@
+"""The demo: the whole job on the invented scenario in ``ephem_demo/`` (the API of `occplan demo`).
+
+find -> rank -> evaluate the best events -> chord tables, figures -> campaign report, all in
+one output folder, offline.  The scenario is installed with the package as
+``occplan.ephem_demo`` (its README says how it was made).
+"""
+
+from __future__ import annotations
+
+import json
+import shutil
+import sys
+import time
+import tomllib
+from dataclasses import dataclass, field
+from importlib import resources
+from pathlib import Path
+
+from . import __version__
+from .errors import OutputExistsError
+
+DEMO_PACKAGE = "occplan.ephem_demo"
+RANKED_COLUMNS = ["rank", "star_id", "body", "site", "closest_approach_utc", "min_ring_radius_km",
+                  "zones_crossed", "zones_resolvable", "zones_hidden", "zones_unusable", "score",
+                  "score_ingress", "score_egress", "strength_sum", "resolvable_factor_sum",
+                  "snr_factor_sum", "usable_factor_sum", "best_zone", "opening_angle_deg",
+                  "vmag", "kmag", "telescope", "reasons"]
+FACTOR_COLUMNS = [("zones_resolvable", "resolvable"), ("strength_sum", "strength sum"),
+                  ("resolvable_factor_sum", "resolvable sum"), ("snr_factor_sum", "SNR sum"),
+                  ("usable_factor_sum", "usable sum"), ("best_zone", "best zone")]
+
+
+@dataclass
+class DemoResult:
+    out_dir: Path
+    files: list = field(default_factory=list)
+    summary: list = field(default_factory=list)  # lines for the terminal
+
+
+def scenario_dir() -> Path:
+    """The installed scenario folder (a real folder for regular and editable installs)."""
+    return Path(str(resources.files(DEMO_PACKAGE)))
+
+
+def _prepare(out: Path, overwrite: bool) -> None:
+    if out.exists() and any(out.iterdir()):
+        if not overwrite:
+            raise OutputExistsError(f"{out} exists and is not empty; pass --overwrite to replace "
+                                    "its demo files, or --out another folder")
+        for sub in ("events", "figures"):
+            shutil.rmtree(out / sub, ignore_errors=True)
+    (out / "events").mkdir(parents=True, exist_ok=True)
+    (out / "figures").mkdir(parents=True, exist_ok=True)
+
+
+def _why_first(rows: list[dict]) -> str:
+    if not rows or not rows[0].get("score"):
+        return "no event scored above zero in this season."
+    a = rows[0]
+    text = (f"star {a['star_id']} from {a['site']} scores {a['score']:.2f}: its chord crosses "
+            f"{a['zones_crossed']} zone crossings (ingress and egress counted apart), "
+            f"{a['zones_resolvable']} of them resolvable with that station's camera, "
+            f"{a.get('zones_hidden') or 0} behind the planet and "
+            f"{a.get('zones_unusable') or 0} at unusable times; its best zone is "
+            f"{a.get('best_zone') or '-'}.")
+    if len(rows) > 1:
+        b = rows[1]
+        text += (f" The next event (star {b['star_id']} from {b['site']}) scores "
+                 f"{(b.get('score') or 0):.2f}: {b.get('zones_resolvable') or 0} resolvable of "
+                 f"{b.get('zones_crossed') or 0}, resolvable-factor sum "
+                 f"{(b.get('resolvable_factor_sum') or 0):.2f} against "
+                 f"{(a.get('resolvable_factor_sum') or 0):.2f}, usable-factor sum "
+                 f"{(b.get('usable_factor_sum') or 0):.2f} against "
+                 f"{(a.get('usable_factor_sum') or 0):.2f}.")
+    if a.get("reasons"):
+        text += f" Scorer's note on the winner: {a['reasons']}"
+    return text
+
+
+def run_demo(out_dir: str | Path = "occplan-demo-output", overwrite: bool = False,
+             top_events: int | None = None, progress: bool | None = None,
+             log=None) -> DemoResult:
+    """Run the demo campaign into ``out_dir`` and return what was written."""
+    from .catalogs import load_sites, read_catalog_table
+    from .chords import chord
+    from .events import evaluate_event, summary_text
+    from .plotting import save_event_figures
+    from .ranking import RankSettings, event_rows, load_weights, rank_rows, score_events
+    from .report import write_report
+    from .search import find_events
+    from .season_chart import write_season_chart
+    from .tables import _plain, render
+    from .telescope import load_telescope
+    from .bodies import get_body
+    from .ephemeris import parse_utc, tdb_s_of
+
+    log = log or (lambda msg: print(msg, file=sys.stderr))
+    started = time.perf_counter()
+    here = scenario_dir()
+    camp = tomllib.loads((here / "campaign.toml").read_text(encoding="utf-8"))
+    out = Path(out_dir)
+    _prepare(out, overwrite)
+    result = DemoResult(out_dir=out)
+    sites = load_sites(here / camp["sites"])
+    table = read_catalog_table(here / camp["catalog"])
+    window = (camp["start_utc"], camp["end_utc"])
+    n_top = int(top_events or camp.get("top_events", 3))
+    settings = RankSettings(max_order=int(camp.get("max_order", 3)))
+    weights = load_weights(here / camp["weights"]) if camp.get("weights") else load_weights()
+    campaign_info = {
+        "name": camp["name"], "start_utc": camp["start_utc"], "end_utc": camp["end_utc"],
+        "catalog": camp["catalog"], "stars": len(table), "version": __version__,
+        "sites": [{"name": s.name, "lat_deg": s.lat_deg, "lon_deg": s.lon_deg,
+                   "height_m": s.height_m, "telescope": load_telescope(s.telescope).name}
+                  for s in sites],
+        "notes": ["Everything in this scenario is invented: stations, telescopes, catalog "
+                  "stars and campaign. The planets, rings and moons are real, with the "
+                  "published constants cited in occplan's body files."],
+    }
+    bodies_out = []
+    for name in camp["bodies"]:
+        body = get_body(name)
+        log(f"[{name}] searching {len(table)} catalog stars, {window[0]} .. {window[1]}")
+        found = find_events(body, table, window, sites, progress=progress)
+        log(f"[{name}] {len(found.candidates)} geocentric candidates, {len(found.events)} "
+            "station events crossing the rings; evaluating zones")
+        score_events(found, settings=settings, weights=weights, progress=progress)
+        rows = rank_rows(event_rows(found))
+        for r in rows:
+            r.pop("zones", None)
+            r.pop("zone_factors", None)
+        meta = dict(found.meta)
+        meta["campaign"] = camp["name"]
+        cand = out / f"candidates_{name}.ecsv"
+        cand.write_text(render(rows, meta, "ecsv"), encoding="utf-8")
+        ranked_json = out / f"ranked_{name}.json"
+        ranked_json.write_text(json.dumps({"meta": _plain(meta), "rows": _plain(rows)}, indent=1)
+                               + "\n", encoding="utf-8")
+        ranked_ecsv = out / f"ranked_{name}.ecsv"
+        ranked_ecsv.write_text(render(rows, meta, "ecsv",
+                                      columns=[c for c in RANKED_COLUMNS if rows and c in rows[0]]),
+                               encoding="utf-8")
+        result.files += [cand, ranked_json, ranked_ecsv]
+        chart_rel = f"figures/season_{name}.png"
+        write_season_chart(out / chart_rel, rows, body, window, overwrite=True,
+                           title=f"{body.name}: candidate events of the season")
+        result.files.append(out / chart_rel)
+        events_out = []
+        site_by_name = {s.name: s for s in sites}
+        star_of = {(ev.star_id, ev.site_name): ev.candidate.star for ev in found.events}
+        for i, row in enumerate([r for r in rows if r.get("score")][:n_top], start=1):
+            site = site_by_name[row["site"]]
+            star = star_of[(row["star_id"], row["site"])]
+            tel = load_telescope(site.telescope)
+            t_ca = tdb_s_of(parse_utc(row["closest_approach_utc"]))
+            if row.get("crossing_start_utc") and row.get("crossing_end_utc"):
+                a = tdb_s_of(parse_utc(row["crossing_start_utc"])) - 900.0
+                b = tdb_s_of(parse_utc(row["crossing_end_utc"])) + 900.0
+            else:
+                a, b = t_ca - 3600.0, t_ca + 3600.0
+            rep = evaluate_event(body, star, site.observer(), (a, b), telescope=tel,
+                                 max_order=settings.max_order,
+                                 min_altitude_deg=site.min_altitude_deg)
+            stem = f"{name}_{i}"
+            fig_rel = f"figures/{stem}.png"
+            save_event_figures(rep, out / fig_rel, overwrite=True)
+            ev_json = out / "events" / f"{stem}.json"
+            ev_json.write_text(json.dumps(_plain(rep.to_json()), indent=1) + "\n", encoding="utf-8")
+            chord_res = chord(body, star, site.observer(), (a, b), step_s=1.0)
+            chord_path = out / "events" / f"{stem}_chord.ecsv"
+            chord_path.write_text(render(chord_res.rows, chord_res.meta, "ecsv"), encoding="utf-8")
+            summary = summary_text(rep)
+            (out / "events" / f"{stem}.txt").write_text(summary, encoding="utf-8")
+            result.files += [out / fig_rel, ev_json, chord_path]
+            events_out.append({
+                "title": f"{body.name} #{i}: star {row['star_id']} from {row['site']}, "
+                         f"{row['closest_approach_utc'][:16]} UTC (score {row['score']:.2f})",
+                "summary": summary, "figure": fig_rel,
+                "chord_table": f"events/{stem}_chord.ecsv", "json": f"events/{stem}.json",
+            })
+            log(f"[{name}] #{i} star {row['star_id']} from {row['site']}: score "
+                f"{row['score']:.2f}, {row['zones_resolvable']} of {row['zones_crossed']} zone "
+                "crossings resolvable")
+        bodies_out.append({"body": body.name, "candidates": len(rows),
+                           "ranked": [r for r in rows[:12]], "factor_columns": FACTOR_COLUMNS,
+                           "why_first": _why_first(rows), "season_chart": chart_rel,
+                           "events": events_out})
+        top = rows[0] if rows else None
+        result.summary.append(
+            f"{body.name}: {len(found.candidates)} candidate stars, {len(rows)} station events; "
+            + (f"best: star {top['star_id']} from {top['site']} at {top['closest_approach_utc'][:16]} "
+               f"UTC, score {top['score']:.2f}" if top else "no event"))
+    md, html_path = write_report(out, campaign_info, bodies_out)
+    result.files += [md, html_path]
+    result.summary.append(f"done in {time.perf_counter() - started:.0f} s")
+    return result
