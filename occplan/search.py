@@ -1,6 +1,6 @@
 """Candidate events across a star catalog and a date window (the API behind `occplan find`).
 
-Three stages, each exact enough for the next:
+Three stages (and a vectorised screen), each conservative for the next:
 
 1. **Prefilter** (:func:`prefilter`).  The planet's geocentric astrometric direction p(t_k)
    (light time iterated, no aberration, like the stars) on nodes every ``node_step_s``
@@ -20,6 +20,12 @@ Three stages, each exact enough for the next:
    barycentre is at most 1.017 AU), plus the second-order term (|mu| dt)^2 of the linear
    propagation.  The circle of radius R_thr contains the ring ellipse dilated by R_E, so no
    candidate is lost here.
+1b. **Screen** (:func:`screen`, vectorised over all prefiltered stars).  Each node segment
+   of a star's runs is cut into 64 pieces; the star's sky-plane offset from the linearly
+   interpolated planet direction, in the ring frame of the nearer node, gives its distance
+   to the outer-ring ellipse; segments farther than R_E + margin plus half a piece and the
+   allowances (star motion, light time, path sagitta, deflection) are dropped.  This removes
+   most of the circle's area when the rings are open, before any per-star exact work.
 2. **Geocentric refinement** (:func:`refine_candidate`).  For each prefiltered star and each
    contiguous run of nodes where it is within reach, the exact geocentric track
    (:func:`occplan.geometry.compute_track`: full light time to the ring intercept, parallax,
@@ -156,6 +162,9 @@ class PlanetPath:
     threshold_km: float
     step_rad: np.ndarray  # angle between consecutive nodes (N-1,)
     light_time_allowance_km: np.ndarray  # (N,) see planet_path
+    pole_angle_rad: np.ndarray = None  # (N,) position angle P of the projected pole
+    sin_b: np.ndarray = None  # (N,) |sin B| at the nodes
+    outer_ring_km: float = float("nan")
 
     @property
     def theta_nodes_rad(self) -> np.ndarray:
@@ -194,7 +203,13 @@ def planet_path(eph, body, t0_s: float, t1_s: float, step_s: float, threshold_km
     sin_b = np.abs(np.einsum("ij,ji->i", unit, pole))
     allowance = PLANET_SPEED_MAX_KM_S * body.outer_ring_km / (
         SPEED_OF_LIGHT_KM_S * np.maximum(sin_b, 1e-4))
-    return PlanetPath(t, unit, dist, float(threshold_km), steps, allowance)
+    z = np.array([0.0, 0.0, 1.0])
+    east = np.cross(z, unit)
+    east /= np.linalg.norm(east, axis=1)[:, None]
+    north = np.cross(unit, east)
+    pa = np.arctan2(np.einsum("ij,ji->i", east, pole), np.einsum("ij,ji->i", north, pole))
+    return PlanetPath(t, unit, dist, float(threshold_km), steps, allowance, pa, sin_b,
+                      body.outer_ring_km)
 
 
 def prefilter(path: PlanetPath, table, chunk: int = 200_000):
@@ -234,6 +249,74 @@ def prefilter(path: PlanetPath, table, chunk: int = 200_000):
         chord = np.linalg.norm(path.unit - u[j], axis=1)
         near = chord <= theta_nodes + h + margin[j] + 1e-9
         out.append((int(row), _runs(near)))
+    return out
+
+
+SCREEN_SUBSTEPS = 64
+PATH_ACCELERATION_KM_S2 = 1.0e-5  # Earth's orbital acceleration 5.9e-6 km/s^2 plus the planet's
+DEFLECTION_ALLOWANCE_KM = 100.0  # planet deflection (about 23 km at Saturn) and B, P drift
+
+
+def screen(path: PlanetPath, table, hits, limit_km: float, chunk: int = 20000):
+    """Stage 1.5: keep the node runs whose segments can reach the outer-ring ellipse.
+
+    Each node segment is cut into ``SCREEN_SUBSTEPS`` pieces; at each point the linearly
+    interpolated planet direction gives the star's sky-plane offset (u, w) in the ring frame
+    of the nearer node and its distance to the outer-ring ellipse (:func:`distance_to_ellipse`).
+    A segment passes when min distance - half a piece - allowances <= ``limit_km``; the
+    allowances are the star's motion margin, the light-time allowance, the sagitta of the
+    path over a segment (``PATH_ACCELERATION_KM_S2`` T^2 / 8) and ``DEFLECTION_ALLOWANCE_KM``.
+    Returns ``hits`` with the runs reduced to the passing segments.
+    """
+    if not hits:
+        return []
+    t_ref = 0.5 * (path.tdb_s[0] + path.tdb_s[-1])
+    half = 0.5 * (path.tdb_s[-1] - path.tdb_s[0])
+    rows = np.array([h[0] for h in hits])
+    sub = table.subset(rows)
+    u_star = star_unit_vectors(sub, t_ref)
+    margin_rad = star_margins_rad(sub, t_ref, half)
+    pairs_j, pairs_k = [], []
+    last_node = path.tdb_s.size - 2
+    for j, (_, runs) in enumerate(hits):
+        for first, last in runs:
+            ks = np.arange(max(first - 1, 0), min(last, last_node) + 1)
+            pairs_j.append(np.full(ks.size, j))
+            pairs_k.append(ks)
+    pj, pk = np.concatenate(pairs_j), np.concatenate(pairs_k)
+    tau = (np.arange(SCREEN_SUBSTEPS + 1) / SCREEN_SUBSTEPS)[None, :, None]
+    dt_node = np.diff(path.tdb_s)
+    z = np.array([0.0, 0.0, 1.0])
+    ok = np.zeros(pj.size, dtype=bool)
+    for lo in range(0, pj.size, chunk):
+        j, k = pj[lo:lo + chunk], pk[lo:lo + chunk]
+        p = path.unit[k][:, None, :] * (1 - tau) + path.unit[k + 1][:, None, :] * tau
+        p /= np.linalg.norm(p, axis=2)[..., None]
+        dist = path.distance_km[k][:, None] * (1 - tau[..., 0]) + path.distance_km[k + 1][:, None] * tau[..., 0]
+        s = u_star[j][:, None, :]
+        d = (s - p * np.einsum("ijk,ijk->ij", p, s)[..., None]) * dist[..., None]
+        east = np.cross(z, p)
+        east /= np.linalg.norm(east, axis=2)[..., None]
+        north = np.cross(p, east)
+        f, g = np.einsum("ijk,ijk->ij", d, east), np.einsum("ijk,ijk->ij", d, north)
+        near = np.where(tau[..., 0] < 0.5, k[:, None], k[:, None] + 1)
+        pa, sb = path.pole_angle_rad[near], path.sin_b[near]
+        u = f * np.cos(pa) - g * np.sin(pa)
+        w = f * np.sin(pa) + g * np.cos(pa)
+        dmin = distance_to_ellipse(u, w, path.outer_ring_km, path.outer_ring_km * sb).min(axis=1)
+        piece = path.distance_km[k] * path.step_rad[k] / SCREEN_SUBSTEPS
+        allowance = (0.5 * piece + margin_rad[j] * path.distance_km[k]
+                     + np.maximum(path.light_time_allowance_km[k], path.light_time_allowance_km[k + 1])
+                     + PATH_ACCELERATION_KM_S2 * dt_node[k] ** 2 / 8.0 + DEFLECTION_ALLOWANCE_KM)
+        ok[lo:lo + chunk] = dmin - allowance <= limit_km
+    out = []
+    for j, (row, _) in enumerate(hits):
+        sel = pk[(pj == j) & ok]
+        if sel.size:
+            mask = np.zeros(path.tdb_s.size, dtype=bool)
+            mask[sel] = True
+            mask[sel + 1] = True
+            out.append((row, _runs(mask)))
     return out
 
 
@@ -524,7 +607,8 @@ def search_candidates(body, table, window, *, kernels=None,
         lo, hi = t0, t1  # a window at the end of the kernel: no padding
     threshold = body.outer_ring_km + EARTH_RADIUS_KM + margin_km
     path = planet_path(eph, body, lo, hi, node_step_s, threshold, corrections)
-    pre = prefilter(path, table)
+    pre_circle = prefilter(path, table)
+    pre = screen(path, table, pre_circle, EARTH_RADIUS_KM + margin_km)
     candidates, skipped = [], []
     bar = _progress(len(pre), "refining candidates", progress)
     try:
@@ -545,7 +629,8 @@ def search_candidates(body, table, window, *, kernels=None,
             bar.stop()
     candidates.sort(key=lambda c: c.closest_approach_s)
     info = {
-        "stars_searched": len(table), "prefiltered": len(pre), "candidates": len(candidates),
+        "stars_searched": len(table), "prefiltered": len(pre_circle),
+        "screened": len(pre), "candidates": len(candidates),
         "threshold": (f"sky-plane distance of the geocentric ray from the outer-ring ellipse "
                       f"(R_out = {body.outer_ring_km:g} km) <= R_E {EARTH_RADIUS_KM} km + margin "
                       f"{margin_km:g} km"),
