@@ -92,7 +92,7 @@ def test_rank_from_json_and_ecsv(cli, found, files):
     assert res.output.count("Dawnside") == 2
 
 
-def test_first_ranked_event_evaluates(cli, found, files):
+def test_first_ranked_event_evaluates_and_plots(cli, found, files):
     out, _ = found
     ranked = json.loads(cli("rank", "--from", out, "--format", "json").output)["rows"]
     best = ranked[0]
@@ -104,6 +104,12 @@ def test_first_ranked_event_evaluates(cli, found, files):
     assert res.exit_code == 0, res.output
     ev = json.loads(res.output)
     assert len(ev["zones"]) == best["zones_crossed"]
+    png = files[0] / "best.png"
+    res = cli("plot", "--catalog", files[1], "--star-id", best["star_id"], *site_args,
+              "--start", best["window_start_utc"], "--end", best["window_end_utc"], "--out", png,
+              "--overwrite")
+    assert res.exit_code == 0, res.output
+    assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
 
 
 def test_csv_and_table(cli, files):
