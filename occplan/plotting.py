@@ -20,9 +20,7 @@ from __future__ import annotations
 
 import itertools
 import math
-import os
 import re
-import tempfile
 from datetime import datetime, timedelta
 from pathlib import Path
 
@@ -716,15 +714,10 @@ def save_event_figures(report, out, fmt: str | None = None, overwrite: bool = Fa
 
 
 def _atomic_save(fig, path: Path, fmt: str, dpi: int) -> None:
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fig.savefig(fh, format=fmt, dpi=dpi, metadata=_file_metadata(fmt))
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    from .tables import atomic_write
+
+    atomic_write(path, lambda fh: fig.savefig(fh, format=fmt, dpi=dpi,
+                                              metadata=_file_metadata(fmt)))
 
 
 def _file_metadata(fmt: str) -> dict:

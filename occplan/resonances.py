@@ -457,9 +457,9 @@ def mark_edges(body, res, edge_distance_km=EDGE_DISTANCE_KM, viscosity_cm2_s=Non
 
     ``res`` holds (kind, m, k, p, r_km, torque_km4_s2, n_rad_s) tuples.  Examples this finds
     in the built-in files: Mimas 2:1 at the B ring outer edge, Janus 7:6 at the A ring outer
-    edge, Cordelia 23:22 at the Uranian delta ring's outer edge.  Narrow eccentric rings whose body-file limits are radial
-    envelopes (Uranus's epsilon ring) are matched on the edge semi-major axes the body file
-    gives (``edge_inner_a_km``/``edge_outer_a_km``).
+    edge, Cordelia 23:22 at the Uranian delta ring's outer edge.  Narrow eccentric rings
+    whose body-file limits are radial envelopes (Uranus's epsilon ring) are matched on the
+    edge semi-major axes the body file gives (``edge_inner_a_km``/``edge_outer_a_km``).
     """
     hits = []
     for i, (kind, m, k, p, r, torque, n) in enumerate(res):

@@ -97,8 +97,6 @@ def season_aspect(body, window, kernels=None, points: int = 200):
 def write_season_chart(path, rows: list[dict], body, window, kernels=None, overwrite=False,
                        title: str | None = None) -> None:
     """Draw the season chart into an image file (atomic write; refuses to overwrite)."""
-    import os
-    import tempfile
     from pathlib import Path
 
     from .errors import InputError
@@ -110,12 +108,7 @@ def write_season_chart(path, rows: list[dict], body, window, kernels=None, overw
         raise InputError(f"--chart {path}: give a .png, .pdf or .svg file name")
     fig = _figure()
     season_chart(rows, ax=fig.add_subplot(), aspect=season_aspect(body, window, kernels), title=title)
-    fd, tmp = tempfile.mkstemp(dir=p.parent if str(p.parent) else ".", suffix=p.suffix)
-    os.close(fd)
-    try:
-        fig.savefig(tmp, dpi=120, bbox_inches="tight")
-        os.replace(tmp, p)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    from .tables import atomic_write
+
+    atomic_write(p, lambda fh: fig.savefig(fh, format=p.suffix[1:].lower(), dpi=120,
+                                           bbox_inches="tight"))

@@ -138,22 +138,32 @@ def render(rows: list[dict], meta: dict, fmt: str, columns: list[str] | None = N
     return buf.getvalue()
 
 
-def emit(text: str, out: str | Path | None, overwrite: bool) -> None:
-    """Write text to stdout or atomically to a file."""
-    if out is None:
-        sys.stdout.write(text)
-        return
-    path = Path(out)
-    check_out(path, overwrite)
+def atomic_write(path: str | Path, write) -> None:
+    """Create ``path`` whole or not at all: ``write(binary_file)`` fills a temporary file in
+    the same folder, which then gets the usual permissions (0666 less the umask; mkstemp
+    makes 0600) and is renamed over ``path``."""
+    path = Path(path)
     directory = path.parent if str(path.parent) else Path(".")
     if not directory.is_dir():
-        raise InputError(f"folder {str(directory)!r} of --out does not exist")
+        raise InputError(f"folder {str(directory)!r} for {path.name} does not exist")
     fd, tmp = tempfile.mkstemp(dir=directory, prefix=f".{path.name}.", suffix=".tmp")
     try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
+        with os.fdopen(fd, "wb") as fh:
+            write(fh)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):
             os.unlink(tmp)
         raise
+
+
+def emit(text: str, out: str | Path | None, overwrite: bool) -> None:
+    """Write text to stdout or atomically to a file."""
+    if out is None:
+        sys.stdout.write(text)
+        return
+    check_out(out, overwrite)
+    atomic_write(out, lambda fh: fh.write(text.encode("utf-8")))

@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 
 from occplan.coverage import hidden_intervals, planet_disk, radial_projection_factor
-from occplan.ephemeris import Observer, StarSpec, parse_utc, tdb_s_of, time_from_tdb_s
+from occplan.ephemeris import Observer, StarSpec, parse_utc, tdb_s_of
 from occplan.events import evaluate_event
 from occplan.geometry import Corrections, compute_track, window_times
 
