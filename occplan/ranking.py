@@ -11,8 +11,9 @@ counted separately (they are two radial profiles):
   normalised in log over the zones the body is checked against
   (:func:`occplan.events.select_resonances`), so that 1 is the strongest.
 - resolvable_z: 1 when the zone is resolved at the site's cadence, Fresnel scale and stellar
-  diameter (:mod:`occplan.coverage`), ``unresolved`` when crossed but not resolved,
-  ``hidden`` behind the planet's disk.
+  diameter (:mod:`occplan.coverage`); when not, ``unresolved`` plus (1 - ``unresolved``)
+  times the resolved fraction of the wave train (the part near the resonance whose
+  wavelength is still above twice the resolution); ``hidden`` behind the planet's disk.
 - snr_z = min(1, SNR_half / reference), SNR_half the signal to noise per element of half the
   zone's shortest wavelength: the reported SNR per element scaled by sqrt(element size)
   (SNR_element = SNR_sample sqrt(N), :func:`occplan.photometry.snr_per_resolution_element`),
@@ -140,6 +141,7 @@ def zone_record(z) -> dict:
         "snr_per_element": float(z.snr_per_element),
         "shortest_wavelength_km": float(z.feature_scale_km),
         "achievable_resolution_km": float(z.achievable_resolution_km),
+        "resolved_fraction": float(z.resolved_fraction),
         "usable": z.usable,
     }
 
@@ -156,7 +158,11 @@ def zone_factors(rec: dict, weights: Weights, torque_log10: tuple[float, float])
     elif rec["resolvable"]:
         resolvable = weights["resolvable.resolvable"]
     else:
-        resolvable = weights["resolvable.unresolved"]
+        # partial credit for the part of the wave train that is resolved (near the
+        # resonance, where the wavelength is longest: occplan.coverage.resolved_extent)
+        lo_w, hi_w = weights["resolvable.unresolved"], weights["resolvable.resolvable"]
+        frac = min(max(float(rec.get("resolved_fraction", 0.0) or 0.0), 0.0), 1.0)
+        resolvable = lo_w + (hi_w - lo_w) * frac
     snr = rec.get("snr_per_element")
     lam = rec["shortest_wavelength_km"]
     res = rec["achievable_resolution_km"]
