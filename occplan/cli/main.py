@@ -45,13 +45,7 @@ def build_app() -> typer.Typer:
         """Plan stellar occultations by planetary rings."""
 
     for name in COMMAND_MODULES:
-        try:
-            module = importlib.import_module(f"occplan.cli.{name}")
-        except ModuleNotFoundError as exc:
-            if exc.name == f"occplan.cli.{name}":
-                continue  # command not built yet
-            raise
-        module.register(app)
+        importlib.import_module(f"occplan.cli.{name}").register(app)
     return app
 
 
