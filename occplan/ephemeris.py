@@ -365,14 +365,23 @@ class Ephemeris:
         plus the mean-orbit offset of :func:`occplan.mean_orbits.barycentre_offset_km`
         (unless ``barycentre_only``).
         """
+        return (self.planet_base_km(body, tdb_jd, barycentre_only)
+                + self.planet_offset_km(body, tdb_jd, barycentre_only))
+
+    def planet_base_km(self, body, tdb_jd, barycentre_only: bool = False):
+        """The kernel part of :meth:`planet_km`: the centre from a kernel, or the barycentre."""
         if not barycentre_only and self.has_target(body.naif_id, in_extra_only=True):
             return self.position_km(body.naif_id, tdb_jd)
-        bary = self.position_km(body.barycentre_naif_id, tdb_jd)
-        if barycentre_only:
-            return bary
+        return self.position_km(body.barycentre_naif_id, tdb_jd)
+
+    def planet_offset_km(self, body, tdb_jd, barycentre_only: bool = False):
+        """The mean-orbit part of :meth:`planet_km` (zero with a centre kernel or uncorrected)."""
+        t = as_time(tdb_jd)
+        if barycentre_only or self.has_target(body.naif_id, in_extra_only=True):
+            return np.zeros((3,) + np.shape(t.tdb))
         from .mean_orbits import barycentre_offset_km
 
-        return bary + barycentre_offset_km(body, as_time(tdb_jd).tdb)
+        return barycentre_offset_km(body, t.tdb)
 
     def check_planet_coverage(self, body, tdb_jd) -> None:
         target = body.naif_id if self.has_target(body.naif_id, True) else body.barycentre_naif_id

@@ -94,9 +94,14 @@ def exact_geometry(eph, body, observer, star, tdb_s, corrections: Corrections = 
     barycentre_only = corrections.barycentre_only
     planet = eph.planet_km(body, when, barycentre_only=barycentre_only).reshape(3, -1)
     t_ring = t - np.linalg.norm(planet - obs, axis=0) / SPEED_OF_LIGHT_KM_S
-    for _ in range(LIGHT_TIME_PASSES):
-        planet = eph.planet_km(body, time_from_tdb_s(t_ring),
-                               barycentre_only=barycentre_only).reshape(3, -1)
+    # The mean-orbit offset of the centre (< 1 km/min of change) is evaluated at the first
+    # ring-time estimate and again at the last pass only; the kernel part every pass.
+    offset = eph.planet_offset_km(body, time_from_tdb_s(t_ring), barycentre_only).reshape(3, -1)
+    for k in range(LIGHT_TIME_PASSES):
+        ring_when = time_from_tdb_s(t_ring)
+        if k == LIGHT_TIME_PASSES - 1:
+            offset = eph.planet_offset_km(body, ring_when, barycentre_only).reshape(3, -1)
+        planet = eph.planet_base_km(body, ring_when, barycentre_only).reshape(3, -1) + offset
         n = body.pole.unit_vector(J2000_TDB_JD + t_ring / SECONDS_PER_DAY).reshape(3, -1)
         lam = _dot(n, planet - obs) / _dot(n, s)
         t_ring = t - lam / SPEED_OF_LIGHT_KM_S

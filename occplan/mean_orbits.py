@@ -39,6 +39,8 @@ signed rates in deg/day (node regressing for prograde moons).
 
 from __future__ import annotations
 
+from functools import lru_cache
+
 import numpy as np
 
 from .bodies import Body, MeanElements, Satellite, get_body
@@ -102,6 +104,7 @@ def solve_kepler(mean_anomaly_rad, e, tol=1e-14, max_iter=50):
     return big_e + (m - m_red)
 
 
+@lru_cache(maxsize=256)
 def _laplace_frame(me: MeanElements):
     """Rows X, Y, Z of the Laplace-plane frame in ICRF (3x3)."""
     ra, dec = me.laplace_ra_deg * _DEG, me.laplace_dec_deg * _DEG
