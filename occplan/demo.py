@@ -62,7 +62,9 @@ def _why_first(rows: list[dict]) -> str:
             f"{a['zones_resolvable']} of them resolvable with that station's camera, "
             f"{a.get('zones_hidden') or 0} behind the planet and "
             f"{a.get('zones_unusable') or 0} at unusable times; its best zone is "
-            f"{a.get('best_zone') or '-'}.")
+            f"{a.get('best_zone') or '-'}. Its resolvable-factor sum "
+            f"{(a.get('resolvable_factor_sum') or 0):.2f} counts each fully resolved wave train as 1 "
+            "and a partly resolved one by the fraction of its train resolved near the resonance.")
     if len(rows) > 1:
         b = rows[1]
         text += (f" The next event (star {b['star_id']} from {b['site']}) scores "
