@@ -48,12 +48,15 @@ def season_chart(rows: list[dict], ax=None, aspect=None, title: str | None = Non
         ax.scatter(x, y, s=size, color=cmap(i % 10), label=site, alpha=0.8, edgecolor="k",
                    linewidth=0.4, zorder=3)
     best = sorted(rows, key=lambda r: -(r.get("score") or 0.0))[:max(label_top, 0)]
-    for r in best:
-        ax.annotate(str(r["star_id"]), (_date(r["closest_approach_utc"]), r.get("score") or 0.0),
-                    textcoords="offset points", xytext=(4, 4), fontsize=7)
+    for k, r in enumerate(best):
+        sid = str(r["star_id"])
+        short = sid if len(sid) <= 8 else "\u2026" + sid[-6:]
+        ax.annotate(f"#{k + 1} {short}", (_date(r["closest_approach_utc"]), r.get("score") or 0.0),
+                    textcoords="offset points", xytext=(5, 3), fontsize=7)
     ax.set_xlabel("closest approach (UTC)")
     ax.set_ylabel("score (resolved-zone equivalents)")
-    ax.set_ylim(bottom=0)
+    top = max([r.get("score") or 0.0 for r in rows] + [1.0])
+    ax.set_ylim(0, 1.15 * top)
     ax.grid(alpha=0.3)
     handles, labels = ax.get_legend_handles_labels()
     if aspect is not None:
@@ -66,8 +69,9 @@ def season_chart(rows: list[dict], ax=None, aspect=None, title: str | None = Non
         h2, l2 = ax2.get_legend_handles_labels()
         handles, labels = handles + h2, labels + l2
     if handles:
-        ax.legend(handles, labels, loc="upper left", fontsize=8, title="site (marker size: resolvable zones)",
-                  title_fontsize=8)
+        ax.legend(handles, labels, loc="upper center", bbox_to_anchor=(0.5, -0.32),
+                  ncol=len(labels), fontsize=8, frameon=False,
+                  title="site (marker size: resolvable zones); labels: rank and star id", title_fontsize=8)
     ax.set_title(title or "Candidate ring occultations over the season")
     ax.figure.autofmt_xdate()
     return ax
