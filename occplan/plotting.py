@@ -317,11 +317,11 @@ def sky_view(report, ax=None, tick_minutes: int | None = None):
     ax.yaxis.set_major_formatter(KM)
     ax.set_xlabel("f, offset east of the planet centre (10$^3$ km)   [east is to the left]")
     ax.set_ylabel("g, offset north (10$^3$ km)")
-    ax.set_title(f"Sky plane from {_observer_label(tr.observer)}: B = {meta['opening_angle_deg']:+.2f}°, "
+    ax.set_title(f"Sky plane from {_observer_label(tr.observer)}\nB = {meta['opening_angle_deg']:+.2f}°, "
                  f"B* = {meta['star_elevation_deg']:+.2f}°, P = {meta['pole_position_angle_deg']:.2f}°, "
                  f"distance {meta['distance_km'] / 149597870.7:.3f} AU", fontsize=10)
     _compass(ax)
-    ax.legend(loc="lower left", fontsize=7, ncol=3, framealpha=0.9)
+    ax.legend(loc="best", fontsize=7, ncol=3, framealpha=0.9)
     return ax
 
 
