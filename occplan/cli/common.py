@@ -70,3 +70,31 @@ def window(start, end) -> tuple[float, float]:
     if t1 <= t0:
         raise InputError(f"--end {end} is not after --start {start}")
     return float(t0), float(t1)
+
+
+
+def event_report(opts: dict):
+    """The EventReport that `occplan event` and `occplan plot` both start from.
+
+    ``opts`` holds the shared options by their parameter names (a command's ``locals()``).
+    """
+    from ..events import evaluate_event
+    from ..telescope import load_telescope
+
+    o = opts
+    if o["sigma"] is not None and o["sigma"] < 0:
+        raise InputError(f"--sigma {o['sigma']} g/cm^2 is negative")
+    tel = load_telescope(o["telescope"], cadence_s=o["cadence"],
+                         band=o["band"].upper() if o["band"] else None, aperture_m=o["aperture"])
+    return evaluate_event(
+        body(o["body"]),
+        star(o["star"], o["pm_ra"], o["pm_dec"], o["parallax"], o["rv"], o["star_epoch"],
+             o["vmag"], o["kmag"], o["catalog"], o["star_id"]),
+        observer(o["site"], o["sites"], o["lat"], o["lon"], o["height"], o["geocentre"],
+                 o["observer_id"]),
+        window(o["start"], o["end"]), telescope=tel, kernels=o["kernel"],
+        deflection=not o["no_deflection"], barycentre_only=o["barycentre"], step_s=o["step"],
+        max_order=o["max_order"], sigma_g_cm2=o["sigma"],
+        samples_per_wavelength=o["samples_per_wavelength"],
+        luminosity_class=o["luminosity_class"], min_snr=o["min_snr"],
+    )

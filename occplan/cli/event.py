@@ -8,7 +8,6 @@ import typer
 
 from .. import events
 from ..tables import _plain, check_format, check_out, emit, render
-from ..telescope import load_telescope
 from . import common
 from . import options as o
 
@@ -16,11 +15,6 @@ ZONE_COLUMNS = ["side", "time_utc", "satellite", "label", "kind", "wave", "m", "
                 "resonance_radius_km", "radial_velocity_km_s", "shortest_wavelength_km",
                 "required_interval_s", "achievable_resolution_km", "snr_per_element",
                 "resolvable", "behind_planet", "usable"]
-
-
-def telescope_from_options(telescope, cadence, band, aperture):
-    return load_telescope(telescope, cadence_s=cadence, band=band.upper() if band else None,
-                          aperture_m=aperture)
 
 
 def register(app: typer.Typer) -> None:
@@ -50,20 +44,7 @@ def register(app: typer.Typer) -> None:
         """
         fmt = check_format(fmt)
         check_out(out, overwrite)
-        tel = telescope_from_options(telescope, cadence, band, aperture)
-        if sigma is not None and sigma < 0:
-            from ..errors import InputError
-
-            raise InputError(f"--sigma {sigma} g/cm^2 is negative")
-        report = events.evaluate_event(
-            common.body(body),
-            common.star(star, pm_ra, pm_dec, parallax, rv, star_epoch, vmag, kmag, catalog, star_id),
-            common.observer(site, sites, lat, lon, height, geocentre, observer_id),
-            common.window(start, end), telescope=tel, kernels=kernel,
-            deflection=not no_deflection, barycentre_only=barycentre, step_s=step,
-            max_order=max_order, sigma_g_cm2=sigma, samples_per_wavelength=samples_per_wavelength,
-            luminosity_class=luminosity_class, min_snr=min_snr,
-        )
+        report = common.event_report(locals())
         if fmt == "json":
             text = json.dumps(_plain(report.to_json()), indent=1) + "\n"
         elif fmt == "table":

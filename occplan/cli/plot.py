@@ -8,7 +8,6 @@ from typing import Annotated
 import typer
 
 from ..errors import InputError, OutputExistsError
-from ..telescope import load_telescope
 from . import common
 from . import options as o
 
@@ -60,20 +59,8 @@ def register(app: typer.Typer) -> None:
         """
         panel = panel.lower()
         _check_figure_out(out, overwrite, panel)
-        if sigma is not None and sigma < 0:
-            raise InputError(f"--sigma {sigma} g/cm^2 is negative")
-        tel = load_telescope(telescope, cadence_s=cadence, band=band.upper() if band else None,
-                             aperture_m=aperture)
-        from .. import events, plotting  # matplotlib only when a figure is asked for
+        from .. import plotting  # matplotlib only when a figure is asked for
 
-        report = events.evaluate_event(
-            common.body(body),
-            common.star(star, pm_ra, pm_dec, parallax, rv, star_epoch, vmag, kmag, catalog, star_id),
-            common.observer(site, sites, lat, lon, height, geocentre, observer_id),
-            common.window(start, end), telescope=tel, kernels=kernel,
-            deflection=not no_deflection, barycentre_only=barycentre, step_s=step,
-            max_order=max_order, sigma_g_cm2=sigma, samples_per_wavelength=samples_per_wavelength,
-            luminosity_class=luminosity_class, min_snr=min_snr,
-        )
+        report = common.event_report(locals())
         for path in plotting.save_event_figures(report, out, overwrite=overwrite, panel=panel):
             typer.echo(f"wrote {path}", err=True)
