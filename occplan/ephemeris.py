@@ -86,6 +86,13 @@ def parse_utc(text: str):
 J2000_TDB_JD = 2451545.0
 
 
+def _tdb_date(tdb_jd: float) -> str:
+    """Calendar date (TDB) of a Julian date, as kernel coverage is usually quoted."""
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        return timescale().tdb_jd(float(tdb_jd)).tdb_strftime("%Y-%m-%d")
+
+
 def as_time(when):
     """A skyfield Time from a Time (unchanged) or TDB Julian date(s)."""
     from skyfield.timelib import Time
@@ -292,7 +299,7 @@ class Ephemeris:
         if t.min() < lo or t.max() > hi:
             raise CoverageError(
                 f"window {utc_iso(t.min(), 0)}..{utc_iso(t.max(), 0)} is outside the coverage "
-                f"{utc_iso(lo, 0)[:10]}..{utc_iso(hi, 0)[:10]} of {what} in "
+                f"{_tdb_date(lo)}..{_tdb_date(hi)} (TDB) of {what} in "
                 f"{os.path.basename(kernel.path) if hasattr(kernel, 'path') else 'the kernel'}; "
                 "pass --kernel with a longer ephemeris"
             )

@@ -33,7 +33,7 @@ StarId = Annotated[Optional[str], typer.Option("--star-id", help="source_id of t
 
 # --- observer -------------------------------------------------------------------------------
 Site = Annotated[Optional[str], typer.Option("--site", help="Site name from --sites.")]
-Sites = Annotated[Optional[Path], typer.Option("--sites", help="Sites TOML file ([[sites]] with name, lat_deg, lon_deg, height_m).")]
+Sites = Annotated[Optional[Path], typer.Option("--sites", help="Sites TOML file: one sites table per site, with name, lat_deg, lon_deg, height_m and optionally telescope (a profile path).")]
 Lat = Annotated[Optional[float], typer.Option("--lat", help="Geodetic latitude, deg (north positive, WGS84).")]
 Lon = Annotated[Optional[float], typer.Option("--lon", help="Longitude, deg (east positive, WGS84).")]
 Height = Annotated[float, typer.Option("--height", help="Height above the WGS84 ellipsoid, m.")]
