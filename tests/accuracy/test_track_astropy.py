@@ -105,7 +105,7 @@ def test_apparent_offset_within_the_aberration_difference(eph, saturn, astropy_d
         s = SkyCoord(star.ra_deg * u.deg, star.dec_deg * u.deg, distance=1e9 * u.pc,
                      frame="icrs").transform_to(GCRS(obstime=t))
         elongation = get_sun(t).separation(planet).rad
-    f_ref, g_ref = _offset_km(s, planet, dist)
+        f_ref, g_ref = _offset_km(s, planet, dist)
     aberration = V_EARTH_MAX_KM_S / C_KM_S * math.hypot(f_ref, g_ref)
     deflection = SUN_DEFLECTION_1AU_RAD / math.tan(elongation / 2.0) * dist
     assert math.hypot(g["sky_f"][0] - f_ref, g["sky_g"][0] - g_ref) < aberration + deflection + 0.5
