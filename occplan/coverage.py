@@ -162,34 +162,24 @@ def radial_projection_factor(track: Track, when_s) -> np.ndarray:
     return np.sqrt(u * u + (w / sb**2) ** 2) / r
 
 
+def ray_length_ratio(track: Track, when_s: float) -> float:
+    """Distance from the observer to the ring point along the ray at ``when_s``, over the
+    observer-planet distance the resolution limits were computed for (1 to 1e-4 from Earth;
+    it matters for a spacecraft near the planet)."""
+    v = track.interp(np.array([when_s]))
+    return float(v["ray_length"][0] / track.meta["distance_km"])
+
+
 def times_at_radius(track: Track, radius_km: float) -> np.ndarray:
     """All times in the window when the chord crosses ring radius ``radius_km`` (sorted)."""
     return crossing_times_many(track, np.array([float(radius_km)]))[0]
 
 
 def crossing_times_many(track: Track, radii_km) -> list[np.ndarray]:
-    """Crossing times of many radii at once (vectorized form of :func:`times_at_radius`).
+    """Crossing times of many radii at once (see :func:`occplan.geometry.crossing_times`)."""
+    from .geometry import crossing_times
 
-    Brackets: node intervals where r - R changes sign; each linear guess is refined by four
-    Newton passes on the interpolated r(t) (as in :func:`occplan.geometry._crossing_times`).
-    """
-    interp = track.interp
-    nodes = interp.node_s
-    radii = np.atleast_1d(np.asarray(radii_km, dtype=float))
-    f = interp.radius(nodes)[:, None] - radii[None, :]
-    i, j = np.nonzero(np.sign(f[:-1]) * np.sign(f[1:]) < 0)
-    x = nodes[i] + (nodes[i + 1] - nodes[i]) * f[i, j] / (f[i, j] - f[i + 1, j])
-    target = radii[j]
-    for _ in range(4):
-        if x.size == 0:
-            break
-        x = np.clip(x - (interp.radius(x) - target) / interp.radial_velocity(x),
-                    nodes[i], nodes[i + 1])
-    keep = (x >= track.tdb_s[0]) & (x <= track.tdb_s[-1])
-    out = [[] for _ in range(radii.size)]
-    for jj, xx in zip(j[keep], x[keep]):
-        out[jj].append(xx)
-    return [np.sort(np.array(v)) for v in out]
+    return crossing_times(track.interp, radii_km, float(track.tdb_s[0]), float(track.tdb_s[-1]))
 
 
 def sides(track: Track) -> list[tuple[str, float, float]]:
@@ -246,23 +236,42 @@ def _radius_window(track: Track, side_start: float, side_end: float, r_lo: float
     return pts[0], pts[-1]
 
 
-def resolved_extent(res, resolution_km: float) -> tuple[float, float]:
-    """How much of a wave train a radial resolution resolves.
+def resolved_extent(res, resolution_km: float, sampled_km: float = 0.0) -> tuple[float, float]:
+    """How much of a wave train a radial resolution and a sampling step resolve.
 
     The wavelength at distance x from resonance is 2 pi ell^2 / x (linear theory, see
     :func:`occplan.resonances.wave_zones`; ell^2 = x_1^2 / (4 pi) from the first-wavelength
-    distance x_1), so it stays above twice the resolution out to x = pi ell^2 / resolution.
-    Returns (extent_km, fraction of the zone width).  A zone without a wave (an edge) is all
-    or nothing: resolved when the resolution is below half its width.
+    distance x_1).  It stays above twice the resolution out to x = pi ell^2 / resolution, and
+    above N samples (``sampled_km`` = N |dr/dt| dt) out to x = 2 pi ell^2 / sampled_km.
+    Returns (extent_km, fraction of the zone width), the extent measured from the resonance.
+    A zone without a wave (an edge) is all or nothing: resolved when the resolution is below
+    half its width and the sampling step below its width.
     """
     width = max(res.zone_outer_km - res.zone_inner_km, 1e-9)
     x1 = getattr(res, "first_wavelength_km", float("nan"))
     if res.wave == "none" or not np.isfinite(x1) or x1 <= 0:
-        ok = resolution_km < width / 2.0
+        ok = resolution_km < width / 2.0 and sampled_km <= width
         return (width if ok else 0.0), (1.0 if ok else 0.0)
     ell2 = x1 * x1 / (4.0 * math.pi)
     extent = min(width, math.pi * ell2 / max(resolution_km, 1e-9))
+    if sampled_km > 0:
+        extent = min(extent, 2.0 * math.pi * ell2 / sampled_km)
     return extent, extent / width
+
+
+def _observed_fraction(res, extent_km: float, r_lo: float, r_hi: float) -> tuple[float, bool]:
+    """Fraction of the zone width that is both resolved and crossed by this side's radii
+    [r_lo, r_hi]; and whether the side covers the whole zone."""
+    width = max(res.zone_outer_km - res.zone_inner_km, 1e-9)
+    if res.propagation == "outward":
+        lo, hi = res.resonance_radius_km, res.resonance_radius_km + extent_km
+    elif res.propagation == "inward":
+        lo, hi = res.resonance_radius_km - extent_km, res.resonance_radius_km
+    else:  # an edge or a corotation zone: all of it when resolved
+        lo, hi = (res.zone_inner_km, res.zone_outer_km) if extent_km > 0 else (0.0, 0.0)
+    overlap = max(0.0, min(hi, r_hi) - max(lo, r_lo))
+    whole = r_lo <= res.zone_inner_km + 1e-6 and r_hi >= res.zone_outer_km - 1e-6
+    return min(overlap / width, 1.0), whole
 
 
 def zone_crossings(track: Track, resonances, *, cadence_s: float, fresnel_km: float,
@@ -277,10 +286,12 @@ def zone_crossings(track: Track, resonances, *, cadence_s: float, fresnel_km: fl
     cadence_s : float
         Sampling interval of the camera (s).
     fresnel_km : float
-        Fresnel scale in the sky plane at the planet (km).
+        Fresnel scale in the sky plane at the distance ``track.meta["distance_km"]`` (km);
+        each zone scales it to the distance of its ring point along the ray (sqrt law).
     stellar_diameter_km : float or None
-        The star's diameter projected at the planet (km); None when it could not be
-        evaluated (no K magnitude): that limit is then left out, and the reasons say so.
+        The star's diameter projected at that same distance (km), scaled per zone linearly;
+        None when it could not be evaluated (no K magnitude): that limit is then left out,
+        and the reasons say so.
     snr_function : callable, optional
         ``snr_function(resolution_km, radial_speed_km_s, when_s) -> SNR per element``.
     hidden : list of (start_s, end_s), optional
@@ -306,6 +317,8 @@ def zone_crossings(track: Track, resonances, *, cadence_s: float, fresnel_km: fl
             if win is None:
                 continue
             start, end = win
+            if end - start < 1e-3:
+                continue  # the chord only touches the zone's edge at its turning point
             t_res = [t for t in crossing[3 * k + 2] if a <= t <= b]
             when = t_res[0] if t_res else 0.5 * (start + end)
             probe = np.array([start, when, end])
@@ -317,10 +330,11 @@ def zone_crossings(track: Track, resonances, *, cadence_s: float, fresnel_km: fl
                 lam = max(res.zone_outer_km - res.zone_inner_km, 1e-3)
             dt_req = lam / (samples_per_wavelength * vmax) if vmax > 0 else float("inf")
             grad = float(radial_projection_factor(track, when)[0])
-            terms = {"cadence": vmax * cadence_s, "Fresnel scale": fresnel_km * grad}
+            scale = ray_length_ratio(track, when)
+            terms = {"cadence": vmax * cadence_s, "Fresnel scale": fresnel_km * math.sqrt(scale) * grad}
             reasons = []
             if stellar_diameter_km is not None:
-                terms["stellar diameter"] = stellar_diameter_km * grad
+                terms["stellar diameter"] = stellar_diameter_km * scale * grad
             else:
                 reasons.append("stellar diameter not evaluated (needs V and K)")
             resolution = math.sqrt(sum(x * x for x in terms.values()))
@@ -330,6 +344,7 @@ def zone_crossings(track: Track, resonances, *, cadence_s: float, fresnel_km: fl
                 reasons.insert(0, f"achievable {resolution:.2f} km >= half the shortest "
                                   f"wavelength ({lam / 2:.2f} km), limited by the {limit}")
             if cadence_s > dt_req:
+                ok = False
                 reasons.append(f"cadence {cadence_s:g} s is slower than the {dt_req:.3g} s "
                                f"needed for {samples_per_wavelength:g} samples per wavelength")
             snr = float("nan")
@@ -338,9 +353,18 @@ def zone_crossings(track: Track, resonances, *, cadence_s: float, fresnel_km: fl
                 if np.isfinite(snr) and snr < min_snr:
                     ok = False
                     reasons.append(f"SNR per resolution element {snr:.1f} < {min_snr:g}")
+                elif not np.isfinite(snr):
+                    reasons.append("SNR undefined (the planet is below the horizon then)")
             else:
                 reasons.append("SNR not evaluated (needs the star's magnitude)")
-            extent, fraction = resolved_extent(res, resolution)
+            extent, _ = resolved_extent(res, resolution,
+                                        samples_per_wavelength * vmax * cadence_s)
+            r_ends = interp.radius(np.array([start, end]))
+            fraction, whole = _observed_fraction(res, extent, float(r_ends.min()),
+                                                 float(r_ends.max()))
+            if not whole:
+                ok = False
+                reasons.append("the chord covers only part of the zone on this side")
             behind = any(h0 <= when <= h1 for h0, h1 in hidden)
             u_node, u_perp = interp.in_plane(np.array([when]))[0][:, 0]
             lon = float(np.degrees(np.arctan2(u_perp, u_node)) % 360.0)
@@ -351,7 +375,7 @@ def zone_crossings(track: Track, resonances, *, cadence_s: float, fresnel_km: fl
                 feature_scale_km=lam, required_interval_s=dt_req,
                 achievable_resolution_km=resolution, limit=limit,
                 resolvable=bool(ok and not behind), reasons=reasons + (["behind the planet"] if behind else []),
-                partial=not t_res, snr_per_element=snr,
+                partial=not whole, snr_per_element=snr,
                 resolved_extent_km=0.0 if behind else extent,
                 resolved_fraction=0.0 if behind else fraction,
             ))

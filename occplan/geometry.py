@@ -83,6 +83,7 @@ def exact_geometry(eph, body, observer, star, tdb_s, corrections: Corrections = 
     ``u_node``/``u_perp`` in-plane components of rho along N and M, km; ``sky_f``/``sky_g``
     sky-plane offsets of the ray from the planet centre, km; ``opening_angle`` B,
     ``star_elevation`` B*, ``pole_angle`` P (rad); ``distance`` observer-planet, km;
+    ``ray_length`` distance from the observer to the intercept along the ray, km;
     ``limb`` scaled closest distance of the ray to the oblate planet minus 1 (negative: the
     star is behind the planet); ``ring_time`` TDB s at the intercept; ``deflection`` radial
     sky-plane shift applied, km.
@@ -152,6 +153,7 @@ def exact_geometry(eph, body, observer, star, tdb_s, corrections: Corrections = 
         "limb": limb,
         "ring_time": t_ring,
         "deflection": shift,
+        "ray_length": lam,
     }
 
 
@@ -241,7 +243,7 @@ class _Interpolant:
     """
 
     KEYS = ("sky_f", "sky_g", "opening_angle", "star_elevation", "pole_cos", "pole_sin",
-            "distance", "limb")
+            "distance", "limb", "ray_length")
 
     def __init__(self, node_s, exact):
         self.t0 = float(node_s[0])
@@ -284,30 +286,58 @@ class _Interpolant:
     def limb(self, tdb_s):
         return self.limb_spline(self.seconds(tdb_s))
 
+    def half_dr2_dt(self, tdb_s):
+        """u.du/dt = (1/2) d(r^2)/dt: smooth even where r passes near zero."""
+        v, dv = self.in_plane(np.atleast_1d(tdb_s))
+        return v[0] * dv[0] + v[1] * dv[1]
 
-def _refine(func, dfunc, guesses, lo, hi, passes=3):
-    """Newton refinement of roots of func (vectorized), kept inside [lo, hi]."""
-    x = np.asarray(guesses, dtype=float)
-    for _ in range(passes):
-        if x.size == 0:
-            break
-        x = np.clip(x - func(x) / dfunc(x), lo, hi)
-    return x
+    def extrema(self) -> tuple[np.ndarray, np.ndarray]:
+        """Times of the local minima and maxima of r(t) over the node span (Brent's method
+        on u.du/dt), cached."""
+        if not hasattr(self, "_extrema"):
+            g = self.half_dr2_dt(self.node_s)
+            idx = np.nonzero(np.sign(g[:-1]) * np.sign(g[1:]) < 0)[0]
+            times = np.array([brentq(lambda tt: float(self.half_dr2_dt(tt)[0]),
+                                     self.node_s[i], self.node_s[i + 1], xtol=1e-6)
+                              for i in idx], dtype=float)
+            is_min = g[idx] < 0
+            self._extrema = (times[is_min], times[~is_min])
+        return self._extrema
+
+    def breaks(self) -> np.ndarray:
+        """Nodes plus the extrema of r(t): r is monotonic between consecutive breaks."""
+        if not hasattr(self, "_breaks"):
+            mins, maxs = self.extrema()
+            self._breaks = np.union1d(self.node_s, np.r_[mins, maxs])
+        return self._breaks
 
 
-def _crossing_times(interp, node_s, r_nodes, radius_km, t0, t1):
-    """Times in [t0, t1] where r(t) = radius_km.
+def crossing_times(interp: "_Interpolant", radii_km, t0: float, t1: float) -> list[np.ndarray]:
+    """Times in [t0, t1] when r(t) equals each of ``radii_km`` (a sorted array per radius).
 
-    Brackets are the node intervals where r - radius_km changes sign; the linear-interpolation
-    guess in each is refined by Newton's method on the interpolated r(t) = |u(t)| with dr/dt
-    from the splines (quadratic convergence: four passes reach microseconds).
+    r(t) is monotonic between consecutive :meth:`_Interpolant.breaks` (nodes and extrema of
+    r), so every root sits alone in a bracket where r - R changes sign; all brackets of all
+    radii are solved at once by scipy's vectorized bracketed root finder
+    (``scipy.optimize.elementwise.find_root``, Chandrupatla's method) to 1e-7 s.
     """
-    f = r_nodes - radius_km
-    i = np.nonzero(np.sign(f[:-1]) * np.sign(f[1:]) < 0)[0]
-    x = node_s[i] + (node_s[i + 1] - node_s[i]) * f[i] / (f[i] - f[i + 1])
-    x = _refine(lambda tt: interp.radius(tt) - radius_km, interp.radial_velocity, x,
-                node_s[i], node_s[i + 1], passes=4)
-    return x[(x >= t0) & (x <= t1)]
+    from scipy.optimize.elementwise import find_root
+
+    radii = np.atleast_1d(np.asarray(radii_km, dtype=float))
+    grid = interp.breaks()
+    grid = grid[(grid >= t0) & (grid <= t1)]
+    grid = np.union1d(grid, [t0, t1])
+    f = interp.radius(grid)[:, None] - radii[None, :]
+    i, j = np.nonzero((np.sign(f[:-1]) * np.sign(f[1:]) < 0) | ((f[:-1] == 0) & (f[1:] != 0)))
+    out = [[] for _ in range(radii.size)]
+    if i.size:
+        # solve in seconds from the first break: TDB seconds past J2000 (~1e9) resolve only
+        # 1e-7 s, so a tolerance of 1e-7 s on them could never be met
+        ref = float(grid[0])
+        res = find_root(lambda x, r: interp.radius(x + ref) - r, (grid[i] - ref, grid[i + 1] - ref),
+                        args=(radii[j],), tolerances={"xatol": 1e-7, "xrtol": 0.0})
+        for jj, xx in zip(j, np.asarray(res.x, dtype=float) + ref):
+            out[jj].append(float(xx))
+    return [np.sort(np.array(v, dtype=float)) for v in out]
 
 
 def window_times(start_s: float, end_s: float, step_s: float) -> np.ndarray:
@@ -332,7 +362,7 @@ def compute_track(eph, body, observer, star, tdb_s, corrections: Corrections = C
     seconds spanning the window and interpolated by cubic splines (``exact=True`` evaluates
     every sample exactly instead; the interpolation error is measured in the tests and in
     ``benchmarks/bench_chord.py``).  Ring-region boundary crossings and the closest approach
-    are found by Brent's method on the interpolated r(t).
+    are found by bracketed root finding on the interpolated r(t) (:func:`crossing_times`).
 
     Raises
     ------
@@ -404,18 +434,8 @@ def _check_edge_on(geo):
 def _find_events(track: Track, interp: _Interpolant, body, nodes, t):
     """Closest approach, boundary crossings and region passes, by root finding."""
     t0, t1 = t[0], t[-1]
-    r_nodes = interp.radius(nodes)
-    # Closest approach: minimum of r^2 = u.u, i.e. a - to + sign change of u.du/dt (smooth even
-    # where r passes near zero), refined by Brent's method.
-    def half_dr2(tt):
-        v, dv = interp.in_plane(np.atleast_1d(tt))
-        return v[0] * dv[0] + v[1] * dv[1]
-
-    grid = np.union1d(nodes[(nodes > t0) & (nodes < t1)], [t0, t1])
-    g = half_dr2(grid)
-    idx = np.nonzero((g[:-1] < 0) & (g[1:] >= 0))[0]
-    mins = [brentq(lambda tt: float(half_dr2(tt)[0]), grid[i], grid[i + 1], xtol=1e-6)
-            for i in idx]
+    # Closest approach: the smallest local minimum of r in the window (roots of u.du/dt).
+    mins = [float(x) for x in interp.extrema()[0] if t0 <= x <= t1]
     candidates = mins + [t0, t1]
     radii = interp.radius(np.array(candidates))
     k = int(np.argmin(radii))
@@ -425,17 +445,18 @@ def _find_events(track: Track, interp: _Interpolant, body, nodes, t):
     ca = track.closest_approach_s
 
     crossings = []
-    for reg in body.rings:
-        for edge, radius in (("inner", reg.inner_km), ("outer", reg.outer_km)):
-            roots = _crossing_times(interp, nodes, r_nodes, radius, t0, t1)
-            speeds = interp.radial_velocity(roots)
-            hidden = interp.limb(roots) < 0
-            for x, v, hid in zip(roots, speeds, hidden):
-                crossings.append(Crossing(
-                    boundary_km=radius, region=reg.name, edge=edge, tdb_s=x,
-                    side="ingress" if x < ca else "egress", radial_velocity_km_s=float(v),
-                    behind_planet=bool(hid),
-                ))
+    edges = [(reg, edge, radius) for reg in body.rings
+             for edge, radius in (("inner", reg.inner_km), ("outer", reg.outer_km))]
+    all_roots = crossing_times(interp, [e[2] for e in edges], t0, t1)
+    for (reg, edge, radius), roots in zip(edges, all_roots):
+        speeds = interp.radial_velocity(roots)
+        hidden = interp.limb(roots) < 0
+        for x, v, hid in zip(roots, speeds, hidden):
+            crossings.append(Crossing(
+                boundary_km=radius, region=reg.name, edge=edge, tdb_s=x,
+                side="ingress" if x < ca else "egress", radial_velocity_km_s=float(v),
+                behind_planet=bool(hid),
+            ))
     crossings.sort(key=lambda c: c.tdb_s)
     track.crossings = crossings
 

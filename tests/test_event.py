@@ -16,7 +16,7 @@ from occplan.geometry import Corrections, compute_track, window_times
 from .test_geometry import offset_star, saturn_radec
 
 T_MID = tdb_s_of(parse_utc("2027-06-15T00:50:00Z"))
-SITE = Observer.site("test site", -25.0, 160.0, 1000.0)  # Saturn high in the sky, Sun down
+SITE = Observer.site("test site", -25.0, 160.0, 1000.0)  # Saturn up, in daylight (usable False)
 STAR = "23.9962 7.4705"
 
 
@@ -87,9 +87,15 @@ def test_event_zones_are_consistent(report):
             assert row["start_utc"] <= row["time_utc"] <= row["end_utc"]
         # DESIGN.md sec. 6: dt_req = lambda_min / (N |dr/dt|)
         assert z.required_interval_s == pytest.approx(z.feature_scale_km / (spw * z.max_radial_speed_km_s))
+        # DESIGN.md sec. 6: resolvable = finer than half the shortest wavelength, sampled at
+        # N per wavelength, fully crossed, not hidden, and enough SNR
         assert z.resolvable == (z.achievable_resolution_km < z.feature_scale_km / 2
-                                and not z.behind_planet
+                                and report.telescope.cadence_s <= z.required_interval_s
+                                and not z.partial and not z.behind_planet
                                 and not (np.isfinite(z.snr_per_element) and z.snr_per_element < 3.0))
+        assert 0.0 <= z.resolved_fraction <= 1.0
+        if z.resolvable:
+            assert z.resolved_fraction == pytest.approx(1.0)
     labels = {(r["satellite"], r["label"]) for r in data["zones"]}
     assert ("Janus", "6:5") in labels and ("Mimas", "5:3") in labels
     assert data["resolution"]["fresnel_km"] == pytest.approx(

@@ -184,3 +184,39 @@ def test_window_outside_de421_raises(eph, saturn):
     with pytest.raises(CoverageError, match="coverage"):
         compute_track(eph, saturn, Observer.geocentre(), StarSpec(10.0, 5.0),
                       window_times(t, t + 3600, 60.0))
+
+
+def test_grazing_chord_keeps_both_crossings(eph, saturn):
+    """A chord that dips 2 km inside the A ring's outer edge crosses it twice, once on each
+    side of the closest approach; both crossings agree with a dense 0.02 s scan of r(t)."""
+    site = Observer.site("s", -22.0, 50.0, 1200.0)
+    t0 = tdb_s_of(parse_utc("2027-06-15T00:00:00Z"))
+    times = window_times(t0, t0 + 2 * 3600, 5.0)
+    target = saturn.ring("A ring").outer_km - 2.0
+
+    def r_min(ddec):
+        tr = compute_track(eph, saturn, site, StarSpec(23.9962, 7.4705 + ddec), times)
+        return tr.closest_approach_radius_km - target, tr
+
+    a, b = 0.0, -0.0002
+    fa, _ = r_min(a)
+    fb, tr = r_min(b)
+    for _ in range(6):  # secant on the star's declination
+        c = b - fb * (b - a) / (fb - fa)
+        a, fa = b, fb
+        b = c
+        fb, tr = r_min(b)
+        if abs(fb) < 0.05:
+            break
+    assert abs(fb) < 0.2
+    edge = saturn.ring("A ring").outer_km
+    hits = [c for c in tr.crossings if c.region == "A ring" and c.edge == "outer"]
+    assert sorted(c.side for c in hits) == ["egress", "ingress"]
+    dense = np.arange(tr.closest_approach_s - 600, tr.closest_approach_s + 600, 0.02)
+    f = tr.interp.radius(dense) - edge
+    k = np.nonzero(np.sign(f[:-1]) != np.sign(f[1:]))[0]
+    assert len(k) == 2
+    for c, kk in zip(sorted(hits, key=lambda c: c.tdb_s), k):
+        assert abs(c.tdb_s - dense[kk]) < 0.03
+    sides = {(p.region, p.side) for p in tr.passes}
+    assert ("A ring", "ingress") in sides and ("A ring", "egress") in sides

@@ -39,8 +39,8 @@ def register(app: typer.Typer) -> None:
     ):
         """Evaluate one candidate: crossings, zones on the chord, cadence, resolution, SNR, safety.
 
-        Example: occplan event --body saturn --star "23.9962 7.4705" --vmag 9.5 --kmag 6.0
-        --lat -25 --lon 160 --start 2027-06-14T22:00Z --end 2027-06-15T04:00Z
+        Example: occplan event --body saturn --star "23.9962 7.4700" --vmag 9.5 --kmag 6.0
+        --lat -22 --lon 50 --height 1200 --start 2027-06-14T23:50Z --end 2027-06-15T01:20Z
         """
         fmt = check_format(fmt)
         check_out(out, overwrite)

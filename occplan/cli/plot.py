@@ -54,8 +54,8 @@ def register(app: typer.Typer) -> None:
     ):
         """Draw one candidate event: sky-plane view, ring radius vs time, zone coverage.
 
-        Example: occplan plot --body saturn --star "23.9962 7.4705" --vmag 9.5 --kmag 6.0
-        --lat -25 --lon 160 --start 2027-06-14T22:00Z --end 2027-06-15T04:00Z --out event.pdf
+        Example: occplan plot --body saturn --star "23.9962 7.4700" --vmag 9.5 --kmag 6.0
+        --lat -22 --lon 50 --height 1200 --start 2027-06-14T23:50Z --end 2027-06-15T01:20Z --out event.pdf
         """
         panel = panel.lower()
         _check_figure_out(out, overwrite, panel)
