@@ -109,6 +109,8 @@ def summary_text(result: ChordResult) -> str:
         f"# planet centre: {c['planet_centre']}"
         + (f" (residual ~{c['planet_centre_residual_km']:.1f} km)" if c["planet_centre_residual_km"] else "")
         + f"; deflection {'on' if c['planet_deflection'] else 'off'}; no aberration; {m['interpolation']}",
+        f"# a pole-direction error of 0.001 deg moves these radii by about "
+        f"{m['pole_sensitivity_km_per_mdeg']:.1f} km at the closest approach",
         f"# {m['note']}",
     ]
     for p in m["crossings"]:

@@ -294,8 +294,9 @@ def summary_text(rep: EventReport) -> str:
         f"  opening angle B {d['opening_angle_deg']:+.3f} deg, star elevation B* "
         f"{d['star_elevation_deg']:+.3f} deg, P {d['pole_position_angle_deg']:.2f} deg, "
         f"distance {d['distance_au']:.4f} AU",
-        f"  planet centre: {tr.meta['corrections']['planet_centre']}; deflection "
-        f"{'on' if tr.meta['corrections']['planet_deflection'] else 'off'}",
+        f"  planet centre: {tr.meta['corrections']['planet_centre']}; deflection (planet, Sun) "
+        f"{'on' if tr.meta['corrections']['planet_deflection'] else 'off'}; 0.001 deg of pole "
+        f"error moves the radii by ~{tr.meta['pole_sensitivity_km_per_mdeg']:.1f} km",
         "",
         "Ring regions crossed:",
     ]
