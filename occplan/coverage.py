@@ -55,7 +55,11 @@ def ellipse(a_km: float, b_km: float, pole_angle_deg: float, n: int = ELLIPSE_VE
 
 
 def planet_disk(body, opening_angle_deg: float, pole_angle_deg: float) -> Polygon:
-    """The oblate planet's outline on the sky (km from its centre)."""
+    """The oblate planet's outline on the sky (km from its centre).
+
+    Pass the star elevation B* for the planet's shadow along the star's rays (what hides the
+    star); the observer's B gives the outline seen from the observer.  From the Earth the two
+    differ by ~1e-3 deg (a few hundred metres on the disk)."""
     b = math.radians(opening_angle_deg)
     minor = math.sqrt((body.equatorial_radius_km * math.sin(b)) ** 2
                       + (body.polar_radius_km * math.cos(b)) ** 2)
@@ -91,7 +95,7 @@ def hidden_intervals(track: Track) -> list[tuple[float, float]]:
     Uses the disk at mid-chord (B and P change by < 1e-4 deg over a chord).
     """
     m = track.meta
-    disk = planet_disk(track.body, m["opening_angle_deg"], m["pole_position_angle_deg"])
+    disk = planet_disk(track.body, m["star_elevation_deg"], m["pole_position_angle_deg"])
     t0 = float(track.tdb_s[0])
     line = LineString(np.column_stack([track.sky_f_km, track.sky_g_km, track.tdb_s - t0]))
     inter = line.intersection(disk)
@@ -110,7 +114,7 @@ class SkyScene:
     def __init__(self, body, opening_angle_deg: float, star_elevation_deg: float,
                  pole_angle_deg: float):
         self.body = body
-        self.disk = planet_disk(body, opening_angle_deg, pole_angle_deg)
+        self.disk = planet_disk(body, star_elevation_deg, pole_angle_deg)
         self.rings = {r.name: ring_annulus(r.inner_km, r.outer_km, star_elevation_deg, pole_angle_deg)
                       for r in body.rings}
         all_rings = shapely.union_all(list(self.rings.values()))
