@@ -283,8 +283,9 @@ def _star_magnitude(star, band_name: str):
     return None, info
 
 
-def summary_text(rep: EventReport) -> str:
-    """One screen for people."""
+def summary_text(rep: EventReport, max_zones: int | None = 30) -> str:
+    """One screen for people: the ``max_zones`` strongest zone crossings (by torque), in time
+    order; all of them with ``max_zones=None`` (and always in ``--format json``)."""
     d = rep.to_json()
     tr = rep.track
     lines = [
@@ -328,7 +329,11 @@ def summary_text(rep: EventReport) -> str:
     if rep.zones:
         lines.append(f"  {'side':7s} {'time (UTC)':12s} {'feature':22s} {'r_res km':>10s} "
                      f"{'v km/s':>7s} {'lam km':>7s} {'dt_req s':>8s} {'res km':>7s} {'SNR':>6s}  verdict")
-    for z in rep.zones:
+    shown = rep.zones
+    if max_zones is not None and len(shown) > max_zones:
+        keep = set(map(id, sorted(shown, key=lambda z: -z.resonance.torque_dyn_cm)[:max_zones]))
+        shown = [z for z in shown if id(z) in keep]
+    for z in shown:
         r = z.resonance
         t = _utc(z.time_s)[11:23] if np.isfinite(z.time_s) else "(partial)"
         what = f"{r.satellite} {r.label} {'edge' if r.edge else r.kind}"
@@ -345,6 +350,9 @@ def summary_text(rep: EventReport) -> str:
         lines.append(f"  {z.side:7s} {t:12s} {what:22s} {r.resonance_radius_km:10.1f} "
                      f"{z.radial_velocity_km_s:7.2f} {z.feature_scale_km:7.2f} "
                      f"{z.required_interval_s:8.3f} {z.achievable_resolution_km:7.2f} {snr}  {verdict}")
+    if len(shown) < len(rep.zones):
+        lines.append(f"  ... the {len(shown)} strongest of {len(rep.zones)} zone crossings shown; "
+                     "all are in --format json / csv / ecsv")
     ob = d["observability"]
     lines.append("")
     if ob.get("applicable"):
