@@ -163,6 +163,17 @@ class Body:
         known = ", ".join(s.name for s in self.satellites)
         raise UnknownNameError(f"{self.name} has no satellite {name!r}; known: {known}")
 
+    def region_at_semimajor(self, a_km):
+        """Name of the ring region whose particles have semi-major axis ``a_km`` ('' if none):
+        the edge semi-major axes where the body file gives them (narrow eccentric rings),
+        the radial limits otherwise."""
+        a = np.atleast_1d(np.asarray(a_km, dtype=float))
+        out = np.full(a.shape, "", dtype=object)
+        for reg in self.rings:
+            lo, hi = reg.edge_a_km
+            out[(a >= lo) & (a < hi)] = reg.name
+        return out
+
     def region_at(self, ring_radius_km):
         """Name of the ring region at each radius ('' outside every region)."""
         r = np.atleast_1d(np.asarray(ring_radius_km, dtype=float))

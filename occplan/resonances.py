@@ -391,11 +391,14 @@ def wave_zones(r, r_dd, sigma_g_cm2, viscosity_cm2_s, freq, propagation_sign):
     and the wavelength is 2 pi ell^2 / |x|.  The phase x^2 / (2 ell^2) first reaches 2 pi
     at x_1 = 2 sqrt(pi) ell: ``first_wavelength_km``.
 
-    Damping: differentiating m^2 (Omega - Omega_p)^2 = kappa^2 - 2 pi G sigma |k| in k gives
-    the group velocity c_g = pi G sigma / kappa.  Viscosity damps the amplitude at the rate
-    (7/3) nu_v k^2 (Shu 1984), so d ln A / dx = -(7/3) nu_v k^2 / c_g
-    = -(7/3) nu_v kappa x^2 / (pi G sigma ell^4), and integrating from the resonance
-    A ~ exp(-(x/x_D)^3) with x_D^3 = 9 pi G sigma ell^4 / (7 nu_v kappa)
+    Damping: with viscosity the local dispersion relation becomes
+    kappa^2 - w^2 - 2 pi G sigma |k| + i w (7/3) nu_v k^2 = 0 (w = m (Omega - Omega_p) ~
+    kappa; 7/3 = 4/3 radial + 1 azimuthal, Shu 1984; Goldreich & Tremaine 1978).  At fixed
+    real frequency the wavenumber gains k_I = (7/3) nu_v kappa k^2 / (2 pi G sigma) (the
+    amplitude decays at (7/6) nu_v k^2 in time, carried at c_g = pi G sigma / kappa), so
+    A ~ exp(-int k_I dx) = exp(-(x/x_D)^3) with x_D^3 = 18 pi G sigma ell^4 / (7 nu_v kappa),
+    i.e. nu_v = (9/7) 2 pi G sigma ell^4 / (kappa x_D^3), the form used to read viscosities
+    from wave damping (Tiscareno et al. 2007, Icarus 189, 14; from memory)
     (``damping_length_km``).  Bending waves use the same form with nu in place of kappa.
 
     The zone runs from the resonance to x_end = max(3^(1/3) x_D, x_1) on the propagation
@@ -409,7 +412,7 @@ def wave_zones(r, r_dd, sigma_g_cm2, viscosity_cm2_s, freq, propagation_sign):
         ell2 = 2.0 * np.pi * g_sigma * r / r_dd
         ell = np.sqrt(ell2)
         x1 = 2.0 * np.sqrt(np.pi) * ell
-        x_d = np.cbrt(9.0 * np.pi * g_sigma * ell2**2 / (7.0 * nu_v * freq))
+        x_d = np.cbrt(18.0 * np.pi * g_sigma * ell2**2 / (7.0 * nu_v * freq))
         x_end = np.maximum(ZONE_DAMPING_FACTOR * x_d, x1)
         shortest = 2.0 * np.pi * ell2 / x_end
     has = np.isfinite(x_end) & (x_end > 0)
@@ -586,7 +589,9 @@ def find_resonances(body, rmin_km=None, rmax_km=None, max_order=3, satellites=No
     torque, r_dd = torque_per_sigma(kind_i, m_i, pattern, n, kappa, nu, r_dn2, r_dk2, phi, r_dphi)
     torque_cgs = torque * KM4_S2_TO_CM4_S2
 
-    region = body.region_at(r)
+    # resonance radii are semi-major axes: narrow eccentric rings count by their edges'
+    # semi-major axes, not by their radial envelopes
+    region = body.region_at_semimajor(r)
     reg_by_name = {reg.name: reg for reg in body.rings}
     sig = np.array([sigma_g_cm2 if sigma_g_cm2 is not None else
                     (reg_by_name[x].surface_density_g_cm2 if x else np.nan) for x in region])
@@ -622,7 +627,10 @@ def find_resonances(body, rmin_km=None, rmax_km=None, max_order=3, satellites=No
         )
         if i in edges:
             edge, name = edges[i]
+            reg = reg_by_name[name]
             fields.update(wave="none", propagation="none", edge=True, region=name,
+                          surface_density_g_cm2=float(sigma_g_cm2 if sigma_g_cm2 is not None
+                                                      else reg.surface_density_g_cm2),
                           zone_inner_km=float(min(r[i], edge) - EDGE_PAD_KM),
                           zone_outer_km=float(max(r[i], edge) + EDGE_PAD_KM),
                           first_wavelength_km=np.nan, damping_length_km=np.nan,

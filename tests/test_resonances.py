@@ -201,14 +201,17 @@ def test_wave_directions_and_zones():
 
 
 def test_damping_length_against_integrated_damping_rate():
-    # amplitude A = exp(-int_0^x k_I dx) with k_I = (7/3) nu k^2 / c_g, k = x/ell^2,
-    # c_g = pi G sigma / kappa (Shu 1984): at x = x_D the integral must be 1 (scipy quad)
+    # amplitude A = exp(-int_0^x k_I dx) with k_I = (7/3) nu kappa k^2 / (2 pi G sigma),
+    # k = x/ell^2: the imaginary part of k from the viscous dispersion relation
+    # kappa^2 - w^2 - 2 pi G sigma |k| + i w (7/3) nu k^2 = 0 (Shu 1984; equivalently
+    # nu = (9/7) 2 pi G sigma ell^4 / (kappa x_D^3), Tiscareno et al. 2007, from memory):
+    # at x = x_D the integral must be 1 (scipy quad)
     r, r_dd, sigma, visc, kappa = 130000.0, 1.5e-7, 40.0, 100.0, 1.2e-4
     z = wave_zones(np.array([r]), np.array([r_dd]), np.array([sigma]), np.array([visc]),
                    np.array([kappa]), np.array([1.0]))
     g_sigma = G * sigma * 1e7
     ell2 = z["ell_km"][0] ** 2
-    k_i = lambda x: 7 / 3 * visc * 1e-10 * (x / ell2) ** 2 / (np.pi * g_sigma / kappa)
+    k_i = lambda x: 7 / 3 * visc * 1e-10 * kappa * (x / ell2) ** 2 / (2 * np.pi * g_sigma)
     assert quad(k_i, 0, z["damping_length_km"][0])[0] == pytest.approx(1.0, rel=1e-10)
     x_end = z["zone_outer_km"][0] - r
     assert z["shortest_wavelength_km"][0] == pytest.approx(2 * np.pi * ell2 / x_end, rel=1e-12)
