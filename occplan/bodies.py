@@ -82,6 +82,16 @@ class RingRegion:
 
 
 @dataclass(frozen=True)
+class Gap:
+    """A clear gap inside a ring region (no ring material to launch waves in)."""
+
+    name: str
+    inner_km: float
+    outer_km: float
+    source: str = ""
+
+
+@dataclass(frozen=True)
 class MeanElements:
     """Mean orbital elements of a satellite about its planet, for the planet-centre correction.
 
@@ -136,6 +146,7 @@ class Body:
     sources: dict = field(default_factory=dict)
     photometry: dict = field(default_factory=dict)
     path: str = ""
+    gaps: tuple = ()
 
     @property
     def key(self) -> str:
@@ -172,6 +183,8 @@ class Body:
         for reg in self.rings:
             lo, hi = reg.edge_a_km
             out[(a >= lo) & (a < hi)] = reg.name
+        for gap in self.gaps:
+            out[(a >= gap.inner_km) & (a < gap.outer_km)] = ""
         return out
 
     def region_at(self, ring_radius_km):
@@ -180,6 +193,8 @@ class Body:
         out = np.full(r.shape, "", dtype=object)
         for reg in self.rings:
             out[(r >= reg.inner_km) & (r < reg.outer_km)] = reg.name
+        for gap in self.gaps:
+            out[(r >= gap.inner_km) & (r < gap.outer_km)] = gap.name
         return out
 
 
@@ -269,6 +284,11 @@ def _parse(data: dict, path: str) -> Body:
             },
             photometry=dict(data.get("photometry", {})),
             path=path,
+            gaps=tuple(Gap(str(_need(g, "name", where + " [[gaps]]")),
+                           float(_need(g, "inner_km", where + " [[gaps]]")),
+                           float(_need(g, "outer_km", where + " [[gaps]]")),
+                           str(g.get("source", "")))
+                       for g in data.get("gaps", [])),
         )
     except (TypeError, ValueError) as exc:
         if isinstance(exc, DataFileError):

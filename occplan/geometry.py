@@ -480,7 +480,8 @@ def _find_events(track: Track, interp: _Interpolant, body, nodes, t):
     ca = track.closest_approach_s
 
     crossings = []
-    edges = [(reg, edge, radius) for reg in body.rings
+    regions = list(body.rings) + list(getattr(body, "gaps", ()))  # gaps: crossed like regions
+    edges = [(reg, edge, radius) for reg in regions
              for edge, radius in (("inner", reg.inner_km), ("outer", reg.outer_km))]
     all_roots = crossing_times(interp, [e[2] for e in edges], t0, t1)
     for (reg, edge, radius), roots in zip(edges, all_roots):
@@ -496,7 +497,7 @@ def _find_events(track: Track, interp: _Interpolant, body, nodes, t):
     track.crossings = crossings
 
     passes = []
-    for reg in body.rings:
+    for reg in regions:
         times = sorted(c.tdb_s for c in crossings if c.region == reg.name)
         r_start = interp.radius(np.array([t0]))[0]
         inside = reg.inner_km <= r_start < reg.outer_km

@@ -168,3 +168,13 @@ def test_event_telescope_file_with_unknown_key(cli, tmp_path):
     res = cli("event", "--star", STAR, "--geocentre", "--start", "2027-06-15T00:20Z",
               "--end", "2027-06-15T01:30Z", "--telescope", tel)
     assert res.exit_code == 2 and "focal_ratio" in res.output
+
+
+def test_gaps_are_crossed_and_hold_no_waves(saturn, report):
+    """The Encke gap (cleared by Pan; edges from memory, French et al. 2016) is crossed like
+    a region, and a resonance inside it (Prometheus 16:15 ILR, 133,557 km) is no A-ring wave."""
+    from occplan.events import select_resonances
+
+    assert any(p.region == "Encke gap" for p in report.track.passes)
+    inside = [r for r in select_resonances(saturn) if 133423.0 <= r.resonance_radius_km < 133745.0]
+    assert inside == []
