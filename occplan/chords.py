@@ -22,7 +22,7 @@ CHORD_COLUMNS = ["time_utc", "ring_radius_km", "ring_longitude_deg", "radial_vel
                  "sky_f_km", "sky_g_km", "opening_angle_deg", "behind_planet", "region"]
 ASPECT_COLUMNS = ["time_utc", "opening_angle_deg", "sun_opening_angle_deg",
                   "pole_position_angle_deg", "distance_au", "planet_radius_arcsec",
-                  "outer_ring_radius_arcsec"]
+                  "outer_ring_radius_arcsec", "planet_ra_deg", "planet_dec_deg"]
 
 
 @dataclass
@@ -110,8 +110,9 @@ def summary_text(result: ChordResult) -> str:
         + (f" (residual ~{c['planet_centre_residual_km']:.1f} km)" if c["planet_centre_residual_km"] else "")
         + f"; deflection {'on' if c['planet_deflection'] else 'off'}; no aberration; {m['interpolation']}",
         f"# a pole-direction error of 0.001 deg moves these radii by about "
-        f"{m['pole_sensitivity_km_per_mdeg']:.1f} km at the closest approach",
+        f"{m['pole_sensitivity_km_per_mdeg']:.1f} km at {m['pole_sensitivity_radius_km']:,.0f} km",
         f"# {m['note']}",
+        *[f"# note: {n}" for n in m.get("notes", [])],
     ]
     for p in m["crossings"]:
         lines.append(f"#   {p['side']:7s} {p['region']:18s} {p['start_utc']} .. {p['end_utc']}"
@@ -161,7 +162,9 @@ def aspect(body, observer: Observer, window, step_s: float = 3600.0, kernels=Non
          "sun_opening_angle_deg": float(b_sun[i]), "pole_position_angle_deg": float(pa[i]),
          "distance_au": float(dist[i] / AU_KM),
          "planet_radius_arcsec": float(body.equatorial_radius_km / dist[i] * arcsec),
-         "outer_ring_radius_arcsec": float(body.outer_ring_km / dist[i] * arcsec)}
+         "outer_ring_radius_arcsec": float(body.outer_ring_km / dist[i] * arcsec),
+         "planet_ra_deg": float(np.degrees(np.arctan2(u[1, i], u[0, i])) % 360.0),
+         "planet_dec_deg": float(np.degrees(np.arcsin(u[2, i])))}
         for i in range(times.size)
     ]
     meta = {"occplan_version": __version__, "body": body.name, "observer": observer.describe(),
@@ -170,5 +173,6 @@ def aspect(body, observer: Observer, window, step_s: float = 3600.0, kernels=Non
             else eph.planet_centre_source(body),
             "step_s": step_s,
             "note": "B > 0: the north (angular-momentum) face of the rings is seen; "
-                    "the rings are edge-on where B changes sign"}
+                    "the rings are edge-on where B changes sign; planet RA/Dec astrometric "
+                    "(ICRS, light time, no aberration: the frame of catalogue stars)"}
     return rows, meta

@@ -274,7 +274,8 @@ def _observed_fraction(res, extent_km: float, r_lo: float, r_hi: float) -> tuple
     else:  # an edge or a corotation zone: all of it when resolved
         lo, hi = (res.zone_inner_km, res.zone_outer_km) if extent_km > 0 else (0.0, 0.0)
     overlap = max(0.0, min(hi, r_hi) - max(lo, r_lo))
-    whole = r_lo <= res.zone_inner_km + 1e-6 and r_hi >= res.zone_outer_km - 1e-6
+    # 1 m of slack: the zone's entry and exit times are roots found to 1e-7 s at tens of km/s
+    whole = r_lo <= res.zone_inner_km + 1e-3 and r_hi >= res.zone_outer_km - 1e-3
     return min(overlap / width, 1.0), whole
 
 
@@ -368,7 +369,7 @@ def zone_crossings(track: Track, resonances, *, cadence_s: float, fresnel_km: fl
                                                  float(r_ends.max()))
             if not whole:
                 ok = False
-                reasons.append("the chord covers only part of the zone on this side")
+                reasons.append("only part of the zone crossed on this side")
             behind = any(h0 <= when <= h1 for h0, h1 in hidden)
             u_node, u_perp = interp.in_plane(np.array([when]))[0][:, 0]
             lon = float(np.degrees(np.arctan2(u_perp, u_node)) % 360.0)

@@ -173,7 +173,7 @@ def run_demo(out_dir: str | Path = "occplan-demo-output", overwrite: bool = Fals
             chord_path.write_text(render(chord_res.rows, chord_res.meta, "ecsv"), encoding="utf-8")
             summary = summary_text(rep)
             (out / "events" / f"{stem}.txt").write_text(summary, encoding="utf-8")
-            result.files += [out / fig_rel, ev_json, chord_path]
+            result.files += [out / fig_rel, ev_json, chord_path, out / "events" / f"{stem}.txt"]
             events_out.append({
                 "title": f"{body.name} #{i}: star {row['star_id']} from {row['site']}, "
                          f"{row['closest_approach_utc'][:16]} UTC (score {row['score']:.2f})",

@@ -297,7 +297,10 @@ def summary_text(rep: EventReport, max_zones: int | None = 30) -> str:
         f"distance {d['distance_au']:.4f} AU",
         f"  planet centre: {tr.meta['corrections']['planet_centre']}; deflection (planet, Sun) "
         f"{'on' if tr.meta['corrections']['planet_deflection'] else 'off'}; 0.001 deg of pole "
-        f"error moves the radii by ~{tr.meta['pole_sensitivity_km_per_mdeg']:.1f} km",
+        f"error moves the radii by ~{tr.meta['pole_sensitivity_km_per_mdeg']:.1f} km "
+        f"(at {tr.meta['pole_sensitivity_radius_km']:,.0f} km)",
+        f"  telescope: {rep.telescope.name}",
+        *[f"  note: {n}" for n in tr.meta.get("notes", [])],
         "",
         "Ring regions crossed:",
     ]
@@ -339,7 +342,7 @@ def summary_text(rep: EventReport, max_zones: int | None = 30) -> str:
         what = f"{r.satellite} {r.label} {'edge' if r.edge else r.kind}"
         if z.resolvable:
             verdict = "resolvable"
-        elif z.resolved_fraction > 0 and not z.behind_planet:
+        elif 0 < z.resolved_fraction < 0.995 and not z.behind_planet:
             verdict = (f"partly: first {z.resolved_extent_km:.0f} of "
                        f"{r.zone_outer_km - r.zone_inner_km:.0f} km resolved ({z.limit}-limited)")
         else:

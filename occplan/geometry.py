@@ -448,9 +448,11 @@ def compute_track(eph, body, observer, star, tdb_s, corrections: Corrections = C
                             exact)
     # How much a pole error moves the radii: tilting the ring plane by delta moves the
     # intercept of a ray at radius r by about r delta / tan|B*| (common practice).
+    # Quoted at the outermost ring edge the chord reaches (else at the closest approach).
     tan_b = abs(math.tan(math.radians(track.meta["star_elevation_deg"])))
-    track.meta["pole_sensitivity_km_per_mdeg"] = (
-        track.closest_approach_radius_km * math.radians(1e-3) / max(tan_b, 1e-6))
+    r_ref = max([c.boundary_km for c in track.crossings] or [track.closest_approach_radius_km])
+    track.meta["pole_sensitivity_radius_km"] = float(r_ref)
+    track.meta["pole_sensitivity_km_per_mdeg"] = r_ref * math.radians(1e-3) / max(tan_b, 1e-6)
     return track
 
 
@@ -531,6 +533,16 @@ def track_meta(eph, body, observer, star, corrections, node_geo, t, node_step_s,
 
         centre = "barycentre corrected by satellite mean orbits"
         residual = float(correction_residual_km(body))
+    notes = []
+    if observer.kind == "site":
+        from .ephemeris import timescale
+
+        table_end_tt = float(timescale().delta_t_table[0][-1])
+        if J2000_TDB_JD + t[-1] / SECONDS_PER_DAY > table_end_tt:
+            notes.append(
+                "UT1 (delta T) is extrapolated past the built-in table's end "
+                f"({utc_iso(table_end_tt, 0)[:10]}): each second of delta-T error moves the site "
+                "by up to 0.46 km along the Earth's rotation, and the chord with it")
     return {
         "occplan_version": __version__,
         "body": body.name,
@@ -556,4 +568,5 @@ def track_meta(eph, body, observer, star, corrections, node_geo, t, node_step_s,
         "pole_position_angle_deg": float(np.degrees(node_geo["pole_angle"][mid]) % 360.0),
         "distance_km": float(node_geo["distance"][mid]),
         "frame": "ICRF; ring longitude from the ascending node of the ring plane on the ICRF equator",
+        "notes": notes,
     }

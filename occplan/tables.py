@@ -86,7 +86,10 @@ def to_astropy(rows: list[dict], meta: dict, columns: list[str] | None = None):
     return table
 
 
-def _format_cell(v) -> str:
+def _format_cell(v, column: str = "") -> str:
+    if isinstance(v, (float, np.floating)) and math.isfinite(v) and (
+            column.endswith("ra_deg") or column.endswith("dec_deg")):
+        return f"{v:.6f}"  # sky positions: 0.000001 deg = 3.6 mas
     if isinstance(v, (bool, np.bool_)):
         return "yes" if v else "no"
     if isinstance(v, (float, np.floating)):
@@ -108,7 +111,7 @@ def _format_cell(v) -> str:
 def render_text(rows: list[dict], columns: list[str] | None = None, title: str | None = None) -> str:
     """A plain aligned text table for people."""
     cols = columns or (list(rows[0].keys()) if rows else [])
-    cells = [[_format_cell(r.get(c)) for c in cols] for r in rows]
+    cells = [[_format_cell(r.get(c), c) for c in cols] for r in rows]
     widths = [max([len(c)] + [len(row[i]) for row in cells]) for i, c in enumerate(cols)]
     lines = []
     if title:

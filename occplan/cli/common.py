@@ -84,7 +84,10 @@ def event_report(opts: dict):
     o = opts
     if o["sigma"] is not None and o["sigma"] < 0:
         raise InputError(f"--sigma {o['sigma']} g/cm^2 is negative")
-    tel = load_telescope(o["telescope"], cadence_s=o["cadence"],
+    profile = o["telescope"]
+    if profile is None and o["site"] is not None and o["sites"] is not None:
+        profile = find_site(o["sites"], o["site"]).telescope  # the site's own, as find/rank use
+    tel = load_telescope(profile, cadence_s=o["cadence"],
                          band=o["band"].upper() if o["band"] else None, aperture_m=o["aperture"])
     return evaluate_event(
         body(o["body"]),

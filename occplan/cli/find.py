@@ -21,7 +21,7 @@ AllowNoMotion = Annotated[bool, typer.Option("--allow-no-motion", help="Use star
 Margin = Annotated[float, typer.Option("--margin", help="Added to the Earth's radius in the search threshold, km (ephemeris and star-position errors).")]
 IncludeMisses = Annotated[bool, typer.Option("--include-misses", help="Keep sites whose chord misses every ring region.")]
 Weights = Annotated[Optional[str], typer.Option("--weights", help="Ranking weights TOML (any subset of occplan/data/ranking_weights.toml).")]
-NoZones = Annotated[bool, typer.Option("--no-zones", help="Skip the zone evaluation and scores (faster; rank can run them later).")]
+NoZones = Annotated[bool, typer.Option("--no-zones", help="Skip the zone evaluation and scores (faster; then rank needs the search options again, not --from).")]
 Chart = Annotated[Optional[str], typer.Option("--chart", help="Also draw the season chart into this .png/.pdf/.svg file.")]
 Progress = Annotated[Optional[bool], typer.Option("--progress/--no-progress", help="Progress bars on stderr (default: when stderr is a terminal).")]
 
