@@ -29,6 +29,7 @@ interpolation error against exact evaluation.
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -379,7 +380,16 @@ def window_times(start_s: float, end_s: float, step_s: float) -> np.ndarray:
     n = int(np.floor((end_s - start_s) / step_s + 1e-6)) + 1
     if n > 5_000_000:
         raise InputError(f"{n} samples is too many; use a larger --step")
-    return start_s + np.arange(n) * step_s
+    # Uniform in UTC, so printed times fall on the step (TDB - UTC wanders by +-1.7 ms a year)
+    from .ephemeris import tdb_s_of, timescale
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        y, mo, d, h, mi, sec = time_from_tdb_s(start_s).utc
+        sec = round(float(sec), 6)  # the start as given (to 1 us)
+        times = tdb_s_of(timescale().utc(int(y), int(mo), int(d), int(h), int(mi),
+                                         sec + np.arange(n) * step_s))
+    return np.atleast_1d(times)
 
 
 def compute_track(eph, body, observer, star, tdb_s, corrections: Corrections = Corrections(),
