@@ -462,14 +462,15 @@ class Event:
     def row(self) -> dict:
         """The DESIGN.md section 8 find fields plus what rank needs to rebuild the event."""
         c, s = self.candidate, self.candidate.star
-        regions = sorted({p.region for p in self.passes})
+        # in the order the chord meets them (outer to inner on ingress)
+        regions = list(dict.fromkeys(p.region for p in sorted(self.passes, key=lambda p: p.start_s)))
         row = {
             "star_id": c.star_id, "body": None, "site": self.site_name,
             "closest_approach_utc": _utc(self.closest_approach_s),
             "min_ring_radius_km": self.min_ring_radius_km,
             "crossing_start_utc": _utc(self.crossing_start_s) if self.crosses_rings else None,
             "crossing_end_utc": _utc(self.crossing_end_s) if self.crosses_rings else None,
-            "regions": " ".join(r.replace(" ", "_") for r in regions),
+            "regions": ", ".join(regions),
             "behind_planet": self.behind_planet,
             "geocentric_closest_approach_utc": _utc(c.closest_approach_s),
             "geocentric_min_ring_radius_km": c.min_ring_radius_km,

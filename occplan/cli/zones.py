@@ -12,7 +12,7 @@ from ..resonances import DEFAULT_MAX_M, find_resonances
 from ..tables import check_format, check_out, emit, render
 from . import options as o
 
-COLUMNS = ["strong", "label", "satellite", "kind", "wave", "m", "order", "resonance_radius_km",
+COLUMNS = ["strong", "label", "satellite", "kind", "wave", "edge", "m", "order", "resonance_radius_km",
            "torque_per_sigma", "region", "propagation", "zone_inner_km", "zone_outer_km",
            "shortest_wavelength_km"]
 
@@ -31,6 +31,7 @@ def register(app: typer.Typer) -> None:
         sigma: Annotated[float | None, typer.Option("--sigma", help="Ring surface density, g/cm^2, for every region (default: each region's typical value).")] = None,
         viscosity: Annotated[float | None, typer.Option("--viscosity", help="Ring kinematic viscosity, cm^2/s, for wave damping (default: each region's value).")] = None,
         strongest: Annotated[int, typer.Option("--strongest", help="Mark this many of the strongest resonances (column 'strong').")] = 20,
+        outside_rings: Annotated[bool, typer.Option("--outside-rings", help="Also list resonances that fall in no ring region (or in a gap).")] = False,
         fmt: o.Format = "table", out: o.Out = None, overwrite: o.Overwrite = False,
     ):
         """List satellite resonances in the rings: radius, strength and wave zone, by radius.
@@ -43,6 +44,8 @@ def register(app: typer.Typer) -> None:
         res = find_resonances(b, rmin_km=rmin, rmax_km=rmax, max_order=max_order,
                               satellites=satellite, min_torque=min_torque, sigma_g_cm2=sigma,
                               viscosity_cm2_s=viscosity, max_m=max_m)
+        if not outside_rings:
+            res = [x for x in res if x.region]
         rows = [x.to_row() for x in res]
         # strongest by the torque itself (per-sigma torque x region sigma; 0 outside the rings)
         ranked = sorted(range(len(rows)), key=lambda i: -res[i].torque_dyn_cm)
@@ -60,6 +63,7 @@ def register(app: typer.Typer) -> None:
             "viscosity_override_cm2_s": viscosity,
             "units": {"torque_per_sigma": "cm4 / s2 (torque in dyn cm per g cm^-2)"},
             "strongest_marked": strongest,
+            "outside_rings_listed": outside_rings,
         }
         header = (f"# {b.name}: {len(rows)} resonances, order <= {max_order}, m <= {max_m}; "
                   f"torque_per_sigma in cm^4 s^-2; strong = the {strongest} strongest by torque "
@@ -67,6 +71,7 @@ def register(app: typer.Typer) -> None:
         if fmt == "table":
             for row in rows:
                 row["strong"] = "*" if row["strong"] else ""
+                row["edge"] = "edge" if row["edge"] else ""
                 row["torque_per_sigma"] = f"{row['torque_per_sigma']:.2e}"
         emit(render(rows, meta, fmt, COLUMNS if fmt == "table" else None,
                     header if fmt == "table" else None), out, overwrite)
