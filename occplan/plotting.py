@@ -307,7 +307,8 @@ def sky_view(report, ax=None, tick_minutes: int | None = None):
     in_view = ((tr.sky_f_km <= xlim[0]) & (tr.sky_f_km >= xlim[1])
                & (tr.sky_g_km >= ylim[0]) & (tr.sky_g_km <= ylim[1]))
     if np.any(in_view):
-        _chord_ticks(ax, report, t[in_view][0], t[in_view][-1], tick_minutes)
+        _chord_ticks(ax, report, t[in_view][0], t[in_view][-1], tick_minutes,
+                     width=abs(xlim[1] - xlim[0]))
     _contacts(ax, report)
 
     ax.set_xlim(*xlim)
@@ -321,18 +322,42 @@ def sky_view(report, ax=None, tick_minutes: int | None = None):
                  f"B* = {meta['star_elevation_deg']:+.2f}°, P = {meta['pole_position_angle_deg']:.2f}°, "
                  f"distance {meta['distance_km'] / 149597870.7:.3f} AU", fontsize=10)
     _compass(ax)
-    ax.legend(loc="best", fontsize=7, ncol=3, framealpha=0.9)
+    if abs(xlim[1] - xlim[0]) < 1.6 * abs(ylim[1] - ylim[0]):
+        # a nearly round ring system (seen pole-on) leaves room beside the axes, not inside
+        ax.legend(loc="upper left", bbox_to_anchor=(1.03, 1.0), fontsize=7, ncol=1,
+                  framealpha=0.9, borderaxespad=0.0)
+    else:
+        ax.legend(loc=_legend_corner(tr, xlim, ylim), fontsize=7, ncol=3, framealpha=0.9)
     return ax
 
 
-def _chord_ticks(ax, report, t0, t1, tick_minutes):
+def _legend_corner(tr, xlim, ylim) -> str:
+    """The lower corner (or upper left) the chord crosses least: the compass holds the upper
+    right."""
+    fx = (tr.sky_f_km - xlim[0]) / (xlim[1] - xlim[0])  # 0 at the left edge (x is inverted)
+    fy = (tr.sky_g_km - ylim[0]) / (ylim[1] - ylim[0])
+    inside = (fx >= 0) & (fx <= 1) & (fy >= 0) & (fy <= 1)
+    fx, fy = fx[inside], fy[inside]
+    boxes = {"lower left": (fx < 0.6) & (fy < 0.35), "lower right": (fx > 0.4) & (fy < 0.35),
+             "upper left": (fx < 0.6) & (fy > 0.65)}
+    return min(boxes, key=lambda k: int(np.count_nonzero(boxes[k])))
+
+
+def _chord_ticks(ax, report, t0, t1, tick_minutes, width=None):
     tr = report.track
     step = tick_minutes or _tick_step_minutes(t1 - t0)
-    ticks = _round_ticks(t0, t1, step)
-    if ticks.size == 0:
-        return
-    f = np.interp(ticks, tr.tdb_s, tr.sky_f_km)
-    g = np.interp(ticks, tr.tdb_s, tr.sky_g_km)
+    width = width or abs(np.diff(ax.get_xlim())[0]) or 1.0
+    while True:
+        ticks = _round_ticks(t0, t1, step)
+        if ticks.size == 0:
+            return
+        f = np.interp(ticks, tr.tdb_s, tr.sky_f_km)
+        g = np.interp(ticks, tr.tdb_s, tr.sky_g_km)
+        gaps = np.hypot(np.diff(f), np.diff(g))
+        # labels need about 9 % of the panel width each; coarsen the ticks until they fit
+        if tick_minutes or gaps.size == 0 or gaps.min() >= 0.09 * width or step >= 720:
+            break
+        step = next(x for x in (1, 2, 5, 10, 15, 20, 30, 60, 120, 180, 360, 720) if x > step)
     df = np.gradient(tr.sky_f_km, tr.tdb_s)
     dg = np.gradient(tr.sky_g_km, tr.tdb_s)
     vf, vg = np.interp(ticks, tr.tdb_s, df), np.interp(ticks, tr.tdb_s, dg)
