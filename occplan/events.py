@@ -189,7 +189,8 @@ def evaluate_event(body, star, observer: Observer, window, *, telescope=None, ke
         kw["sun_limit_deg"] = sun_limit_deg
     cond = obs_mod.observing_conditions(eph, body, observer, jd, **kw)
     cautions = list(obs_mod.cautions(cond))
-    if any("Sun" in c for c in cautions) and not any("safety" in c.lower() for c in cautions):
+    sun_caution = any(c.upper().startswith("CAUTION") and "Sun" in c for c in cautions)
+    if sun_caution and not any("safety" in c.lower() for c in cautions):
         cautions.append(SAFETY_NOTE)
 
     # Photometry: star rate in the band, background from the sky-plane scene.
@@ -365,8 +366,13 @@ def summary_text(rep: EventReport, max_zones: int | None = 30) -> str:
             f"Moon {ob['min_moon_separation_deg']:.0f} deg away, {100 * ob['max_moon_illumination']:.0f}% lit; "
             f"usable {100 * ob['usable_fraction']:.0f}% of the window")
     else:
-        lines.append(f"Observability: {ob.get('reason', 'not applicable')}")
+        sep = ob.get("min_sun_separation_deg")
+        lines.append(f"Observability: {ob.get('reason', 'not applicable')}"
+                     + (f" (Sun {sep:.0f} deg from the target at the closest)" if sep is not None else ""))
+    reason = ob.get("reason", "")
     for c in d["cautions"]:
+        if reason and reason.rstrip(".") in c:
+            continue  # already said on the Observability line
         lines.append(f"  {c}")
     return "\n".join(lines) + "\n"
 
