@@ -44,9 +44,14 @@ def season_chart(rows: list[dict], ax=None, aspect=None, title: str | None = Non
         sel = [r for r in rows if r["site"] == site]
         x = [_date(r["closest_approach_utc"]) for r in sel]
         y = [r.get("score") or 0.0 for r in sel]
-        size = [20 + 4 * (r.get("zones_resolvable") or 0) for r in sel]
-        ax.scatter(x, y, s=size, color=cmap(i % 10), label=site, alpha=0.8, edgecolor="k",
-                   linewidth=0.4, zorder=3)
+        size = np.array([20 + 4 * (r.get("zones_resolvable") or 0) for r in sel])
+        zero = np.array([not (r.get("score") or 0.0) for r in sel], dtype=bool)
+        x, y = np.array(x, dtype=object), np.array(y, dtype=float)
+        ax.scatter(x[~zero], y[~zero], s=size[~zero], color=cmap(i % 10), label=site, alpha=0.8,
+                   edgecolor="k", linewidth=0.4, zorder=3)
+        # score 0: nothing usable (daylight, planet too low or hidden): hollow markers
+        ax.scatter(x[zero], y[zero], s=size[zero], facecolor="none", edgecolor=cmap(i % 10),
+                   linewidth=1.0, zorder=3)
     best = sorted(rows, key=lambda r: -(r.get("score") or 0.0))[:max(label_top, 0)]
     for k, r in enumerate(best):
         sid = str(r["star_id"])
@@ -58,6 +63,8 @@ def season_chart(rows: list[dict], ax=None, aspect=None, title: str | None = Non
     top = max([r.get("score") or 0.0 for r in rows] + [1.0])
     ax.set_ylim(0, 1.15 * top)
     ax.grid(alpha=0.3)
+    if any(not (r.get("score") or 0.0) for r in rows):
+        ax.scatter([], [], s=40, facecolor="none", edgecolor="0.3", label="score 0 (not observable)")
     handles, labels = ax.get_legend_handles_labels()
     if aspect is not None:
         times, b_deg = aspect
