@@ -15,7 +15,7 @@ import numpy as np
 
 from . import __version__
 from .constants import AU_KM
-from .ephemeris import Observer, get_ephemeris, parse_utc, tdb_s_of, time_from_tdb_s, utc_iso
+from .ephemeris import Observer, get_ephemeris, time_from_tdb_s, utc_iso, window_tdb_s
 from .geometry import Corrections, Track, compute_track, window_times
 
 CHORD_COLUMNS = ["time_utc", "ring_radius_km", "ring_longitude_deg", "radial_velocity_km_s",
@@ -30,15 +30,6 @@ class ChordResult:
     track: Track
     rows: list
     meta: dict
-
-
-def _window_s(window) -> tuple[float, float]:
-    a, b = window
-    if isinstance(a, str):
-        a = tdb_s_of(parse_utc(a))
-    if isinstance(b, str):
-        b = tdb_s_of(parse_utc(b))
-    return float(a), float(b)
 
 
 def crossing_rows(track: Track) -> list[dict]:
@@ -79,7 +70,7 @@ def chord(body, star, observer: Observer, window, step_s: float = 60.0, kernels=
     ``window`` items are UTC ISO strings or TDB seconds past J2000.
     """
     eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
-    t0, t1 = _window_s(window)
+    t0, t1 = window_tdb_s(window)
     times = window_times(t0, t1, step_s)
     track = compute_track(eph, body, observer, star, times,
                           Corrections(deflection=deflection, barycentre_only=barycentre_only),
@@ -129,7 +120,7 @@ def aspect(body, observer: Observer, window, step_s: float = 3600.0, kernels=Non
     of the projected pole from celestial north through east, for the direction to the planet.
     """
     eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
-    t0, t1 = _window_s(window)
+    t0, t1 = window_tdb_s(window)
     times = window_times(t0, t1, step_s)
     when = time_from_tdb_s(times)
     eph.check_planet_coverage(body, when)

@@ -116,6 +116,16 @@ def tdb_s_of(time) -> np.ndarray:
     return ((time.whole - J2000_TDB_JD) + time.tdb_fraction) * 86400.0
 
 
+def window_tdb_s(window) -> tuple[float, float]:
+    """(start, end) in TDB seconds past J2000 from UTC ISO strings or TDB seconds."""
+    a, b = window
+    a = tdb_s_of(parse_utc(a)) if isinstance(a, str) else float(a)
+    b = tdb_s_of(parse_utc(b)) if isinstance(b, str) else float(b)
+    if b <= a:
+        raise InputError("the window end is not after its start; check --start and --end")
+    return float(a), float(b)
+
+
 def utc_iso(when, places: int = 3):
     """UTC ISO 8601 strings ('...Z') for a Time or TDB Julian dates (scalar -> str, array -> list)."""
     t = as_time(when)

@@ -15,10 +15,8 @@ import numpy as np
 
 from . import __version__
 from .chords import pass_rows, ring_note
-from .coverage import (DEFAULT_MIN_SNR, DEFAULT_SAMPLES_PER_WAVELENGTH, SkyScene, ZoneCrossing,
-                       hidden_intervals, zone_crossings)
-from .ephemeris import J2000_TDB_JD, Observer, get_ephemeris, parse_utc, tdb_s_of, time_from_tdb_s, utc_iso
-from .errors import InputError
+from .coverage import (DEFAULT_MIN_SNR, DEFAULT_SAMPLES_PER_WAVELENGTH, SkyScene, hidden_intervals, zone_crossings)
+from .ephemeris import J2000_TDB_JD, Observer, get_ephemeris, time_from_tdb_s, utc_iso, window_tdb_s
 from .geometry import Corrections, Track, compute_track, window_times
 
 DEFAULT_TOP_ZONES = 60
@@ -132,13 +130,6 @@ def _utc(t_s: float) -> str:
     return utc_iso(time_from_tdb_s(t_s))
 
 
-def _window(window):
-    a, b = window
-    a = tdb_s_of(parse_utc(a)) if isinstance(a, str) else float(a)
-    b = tdb_s_of(parse_utc(b)) if isinstance(b, str) else float(b)
-    return a, b
-
-
 def evaluate_event(body, star, observer: Observer, window, *, telescope=None, kernels=None,
                    deflection: bool = True, barycentre_only: bool = False, step_s: float = 10.0,
                    max_order: int = 3, top_zones: int = DEFAULT_TOP_ZONES, min_torque=None,
@@ -158,7 +149,7 @@ def evaluate_event(body, star, observer: Observer, window, *, telescope=None, ke
     tel = telescope or load_telescope()
     spw = samples_per_wavelength or tel.samples_per_wavelength or DEFAULT_SAMPLES_PER_WAVELENGTH
     eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
-    t0, t1 = _window(window)
+    t0, t1 = window_tdb_s(window)
     times = window_times(t0, t1, step_s)
     track = compute_track(eph, body, observer, star, times,
                           Corrections(deflection=deflection, barycentre_only=barycentre_only))
@@ -375,16 +366,3 @@ def summary_text(rep: EventReport, max_zones: int | None = 30) -> str:
             continue  # already said on the Observability line
         lines.append(f"  {c}")
     return "\n".join(lines) + "\n"
-
-
-def zone_summary(zones: list[ZoneCrossing]) -> dict:
-    """Counts used by ranking and reports."""
-    return {"zones_crossed": len(zones), "resolvable": sum(z.resolvable for z in zones),
-            "behind_planet": sum(z.behind_planet for z in zones)}
-
-
-def default_window(closest_approach_utc: str, half_width_s: float = 3 * 3600.0):
-    t = tdb_s_of(parse_utc(closest_approach_utc))
-    if half_width_s <= 0:
-        raise InputError("the half window must be positive")
-    return t - half_width_s, t + half_width_s

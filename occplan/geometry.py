@@ -274,7 +274,7 @@ class _Interpolant:
     """
 
     KEYS = ("sky_f", "sky_g", "opening_angle", "star_elevation", "pole_cos", "pole_sin",
-            "distance", "limb", "ray_length")
+            "distance", "ray_length")
 
     def __init__(self, node_s, exact):
         self.t0 = float(node_s[0])
@@ -295,6 +295,7 @@ class _Interpolant:
         x = self.seconds(tdb_s)
         out = dict(zip(self.KEYS, self.other(x)))
         out["u_node"], out["u_perp"] = self.plane(x)
+        out["limb"] = self.limb_spline(x)
         return out
 
     def in_plane(self, tdb_s):

@@ -115,15 +115,9 @@ def load_weights(path: str | Path | None = None) -> Weights:
 # --------------------------------------------------------------------------- zone records
 
 
-def _torque(res) -> float:
-    sigma = res.surface_density_g_cm2
-    sigma = sigma if np.isfinite(sigma) and sigma > 0 else 0.0
-    return float(res.torque_per_sigma * sigma)
-
-
 def torque_range_log10(resonances) -> tuple[float, float]:
     """(log10 T_min, log10 T_max) over the zones an event is checked against (dyn cm)."""
-    t = np.array([_torque(r) for r in resonances], dtype=float)
+    t = np.array([r.torque_dyn_cm for r in resonances], dtype=float)
     t = t[t > 0]
     if t.size == 0:
         return (0.0, 0.0)
@@ -136,7 +130,7 @@ def zone_record(z) -> dict:
     return {
         "label": r.label, "satellite": r.satellite, "kind": "edge" if r.edge else r.kind,
         "side": z.side, "resonance_radius_km": float(r.resonance_radius_km),
-        "torque_dyn_cm": _torque(r), "resolvable": bool(z.resolvable),
+        "torque_dyn_cm": r.torque_dyn_cm, "resolvable": bool(z.resolvable),
         "behind_planet": bool(z.behind_planet),
         "snr_per_element": float(z.snr_per_element),
         "shortest_wavelength_km": float(z.feature_scale_km),

@@ -62,7 +62,7 @@ from scipy.spatial import cKDTree
 
 from . import __version__
 from .constants import SPEED_OF_LIGHT_KM_S
-from .ephemeris import Observer, get_ephemeris, parse_utc, tdb_s_of, time_from_tdb_s, utc_iso
+from .ephemeris import Observer, get_ephemeris, time_from_tdb_s, utc_iso, window_tdb_s
 from .errors import CoverageError, GeometryError, InputError
 from .geometry import Corrections, compute_track, window_times
 
@@ -556,19 +556,10 @@ def _progress(total: int, label: str, enabled):
     return prog
 
 
-def _window_s(window) -> tuple[float, float]:
-    a, b = window
-    a = tdb_s_of(parse_utc(a)) if isinstance(a, str) else float(a)
-    b = tdb_s_of(parse_utc(b)) if isinstance(b, str) else float(b)
-    if b <= a:
-        raise InputError("the window end is not after its start; check --start and --end")
-    return float(a), float(b)
-
-
 def check_window(body, window, kernels=None) -> tuple[float, float]:
     """The window in TDB seconds, after checking it against the kernels' coverage."""
     eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
-    t0, t1 = _window_s(window)
+    t0, t1 = window_tdb_s(window)
     eph.check_planet_coverage(body, time_from_tdb_s(np.array([t0, t1])))
     eph.check_observer_coverage(Observer.geocentre(), time_from_tdb_s(np.array([t0, t1])))
     return t0, t1
@@ -686,7 +677,7 @@ def find_events(body, table, window, observers, *, kernels=None,
         if bar is not None:
             bar.stop()
     events.sort(key=lambda e: (e.closest_approach_s, e.site_name))
-    t0, t1 = _window_s(window)
+    t0, t1 = window_tdb_s(window)
     meta = {
         "occplan_version": __version__, "body": body.name, "body_file": body.path,
         "start_utc": _utc(t0), "end_utc": _utc(t1),

@@ -96,10 +96,11 @@ def _figure():
 
 def season_aspect(body, window, kernels=None, points: int = 200):
     """(times_utc, B_deg) over the window from the geocentre, for :func:`season_chart`."""
-    from .chords import _window_s, aspect
+    from .chords import aspect
+    from .ephemeris import window_tdb_s
     from .ephemeris import Observer
 
-    t0, t1 = _window_s(window)
+    t0, t1 = window_tdb_s(window)
     rows, _ = aspect(body, Observer.geocentre(), (t0, t1), step_s=max((t1 - t0) / points, 60.0),
                      kernels=kernels)
     return [r["time_utc"] for r in rows], [r["opening_angle_deg"] for r in rows]
