@@ -199,27 +199,29 @@ def sides(track: Track) -> list[tuple[str, float, float]]:
 
 @dataclass
 class ZoneCrossing:
-    """One resonance zone crossed on one side of the chord."""
+    """One feature (:class:`occplan.features.Feature`) crossed on one side of the chord."""
 
-    resonance: object  # occplan.resonances.Resonance
+    feature: object  # occplan.features.Feature
     side: str
     time_s: float  # crossing of the resonance radius (nan if that side does not reach it)
-    start_s: float  # entering the zone
+    start_s: float  # entering the feature's zone
     end_s: float  # leaving it
     radial_velocity_km_s: float  # at the resonance radius (or mid-zone)
     max_radial_speed_km_s: float  # largest |dr/dt| inside the zone
     ring_longitude_deg: float
     behind_planet: bool
-    feature_scale_km: float  # the shortest wavelength, or the zone width without a wave
+    feature_scale_km: float  # the scale that must be resolved (see feature_scale_km())
     required_interval_s: float
     achievable_resolution_km: float
     limit: str  # which term dominates the achievable resolution
     resolvable: bool
     reasons: list = field(default_factory=list)
     partial: bool = False  # the side does not cover the whole zone
-    resolved_extent_km: float = 0.0  # how far from resonance the wave stays resolvable
-    resolved_fraction: float = 0.0  # resolved_extent / zone width (1 = the whole train)
-    snr_per_element: float = float("nan")
+    resolved_extent_km: float = 0.0  # how much of the zone is resolved
+    resolved_fraction: float = 0.0  # resolved_extent / zone width (1 = all of it)
+    snr_per_element: float = float("nan")  # SNR of the feature's signal per resolution element
+    transmission: float = float("nan")  # slant transmission exp(-tau/|sin B*|) of the region
+    contrast: float = float("nan")  # the feature's signal as a fraction of the unocculted star
     usable: bool | None = None  # observable at the site (None: not evaluated)
 
 
@@ -240,21 +242,43 @@ def _radius_window(track: Track, side_start: float, side_end: float, r_lo: float
     return pts[0], pts[-1]
 
 
-def resolved_extent(res, resolution_km: float, sampled_km: float = 0.0) -> tuple[float, float]:
-    """How much of a wave train a radial resolution and a sampling step resolve.
+EDGE_SCALE_FACTOR = 4.0  # an edge's scale L = 4 max(w, F): resolved when the resolution < 2 max(w, F)
 
-    The wavelength at distance x from resonance is 2 pi ell^2 / x (linear theory, see
+
+def feature_scale_km(feat, fresnel_ring_km: float) -> float:
+    """The radial scale L a chord must resolve to record a feature (resolution < L / 2).
+
+    - waves and overlap regions: the shortest wavelength in the zone;
+    - edges: 4 max(w, F), w the edge's width and F the Fresnel scale projected to the ring
+      plane: an edge sharper than F shows as a Fresnel diffraction pattern about F wide
+      (textbook optics), so an edge counts as resolved when the profile's resolution is
+      within a factor 2 of max(w, F);
+    - narrow rings: the ring's width; corotation zones: the libration width.
+    """
+    if feat.feature == "edge":
+        return EDGE_SCALE_FACTOR * max(feat.scale_km, fresnel_ring_km)
+    return max(float(feat.scale_km), 1e-3)
+
+
+def resolved_extent(feat, resolution_km: float, sampled_km: float = 0.0,
+                    scale_km: float | None = None) -> tuple[float, float]:
+    """How much of a feature a radial resolution and a sampling step resolve.
+
+    For a wave the wavelength at distance x from resonance is 2 pi ell^2 / x (linear theory,
     :func:`occplan.resonances.wave_zones`; ell^2 = x_1^2 / (4 pi) from the first-wavelength
     distance x_1).  It stays above twice the resolution out to x = pi ell^2 / resolution, and
     above N samples (``sampled_km`` = N |dr/dt| dt) out to x = 2 pi ell^2 / sampled_km.
     Returns (extent_km, fraction of the zone width), the extent measured from the resonance.
-    A zone without a wave (an edge) is all or nothing: resolved when the resolution is below
-    half its width and the sampling step below its width.
+    Features without a wave train (edges, narrow rings, corotation zones, overlap regions)
+    are all or nothing: resolved when the resolution is below half their scale L and the
+    sampling step below L (:func:`feature_scale_km`).
     """
-    width = max(res.zone_outer_km - res.zone_inner_km, 1e-9)
-    x1 = getattr(res, "first_wavelength_km", float("nan"))
-    if res.wave == "none" or not np.isfinite(x1) or x1 <= 0:
-        ok = resolution_km < width / 2.0 and sampled_km <= width
+    width = max(feat.zone_outer_km - feat.zone_inner_km, 1e-9)
+    x1 = getattr(feat, "first_wavelength_km", float("nan"))
+    wave = feat.feature in ("density wave", "bending wave")
+    if not wave or not np.isfinite(x1) or x1 <= 0:
+        scale = feat.scale_km if scale_km is None else scale_km
+        ok = resolution_km < scale / 2.0 and sampled_km <= scale
         return (width if ok else 0.0), (1.0 if ok else 0.0)
     ell2 = x1 * x1 / (4.0 * math.pi)
     extent = min(width, math.pi * ell2 / max(resolution_km, 1e-9))
@@ -263,31 +287,32 @@ def resolved_extent(res, resolution_km: float, sampled_km: float = 0.0) -> tuple
     return extent, extent / width
 
 
-def _observed_fraction(res, extent_km: float, r_lo: float, r_hi: float) -> tuple[float, bool]:
+def _observed_fraction(feat, extent_km: float, r_lo: float, r_hi: float) -> tuple[float, bool]:
     """Fraction of the zone width that is both resolved and crossed by this side's radii
     [r_lo, r_hi]; and whether the side covers the whole zone."""
-    width = max(res.zone_outer_km - res.zone_inner_km, 1e-9)
-    if res.propagation == "outward":
-        lo, hi = res.resonance_radius_km, res.resonance_radius_km + extent_km
-    elif res.propagation == "inward":
-        lo, hi = res.resonance_radius_km - extent_km, res.resonance_radius_km
-    else:  # an edge or a corotation zone: all of it when resolved
-        lo, hi = (res.zone_inner_km, res.zone_outer_km) if extent_km > 0 else (0.0, 0.0)
+    width = max(feat.zone_outer_km - feat.zone_inner_km, 1e-9)
+    if feat.propagation == "outward":
+        lo, hi = feat.zone_inner_km, feat.zone_inner_km + extent_km
+    elif feat.propagation == "inward":
+        lo, hi = feat.zone_outer_km - extent_km, feat.zone_outer_km
+    else:  # all of it when resolved
+        lo, hi = (feat.zone_inner_km, feat.zone_outer_km) if extent_km > 0 else (0.0, 0.0)
     overlap = max(0.0, min(hi, r_hi) - max(lo, r_lo))
     # 1 m of slack: the zone's entry and exit times are roots found to 1e-7 s at tens of km/s
-    whole = r_lo <= res.zone_inner_km + 1e-3 and r_hi >= res.zone_outer_km - 1e-3
+    whole = r_lo <= feat.zone_inner_km + 1e-3 and r_hi >= feat.zone_outer_km - 1e-3
     return min(overlap / width, 1.0), whole
 
 
-def zone_crossings(track: Track, resonances, *, cadence_s: float, fresnel_km: float,
+def zone_crossings(track: Track, features, *, cadence_s: float, fresnel_km: float,
                    stellar_diameter_km: float | None,
                    samples_per_wavelength: float = DEFAULT_SAMPLES_PER_WAVELENGTH,
                    snr_function=None, min_snr: float = DEFAULT_MIN_SNR,
                    hidden: list | None = None) -> list[ZoneCrossing]:
-    """Every resonance zone the chord crosses, per side.
+    """Every feature the chord crosses, per side.
 
     Parameters
     ----------
+    features : list of occplan.features.Feature
     cadence_s : float
         Sampling interval of the camera (s).
     fresnel_km : float
@@ -295,10 +320,11 @@ def zone_crossings(track: Track, resonances, *, cadence_s: float, fresnel_km: fl
         each zone scales it to the distance of its ring point along the ray (sqrt law).
     stellar_diameter_km : float or None
         The star's diameter projected at that same distance (km), scaled per zone linearly;
-        None when it could not be evaluated (no K magnitude): that limit is then left out,
-        and the reasons say so.
+        None when it could not be evaluated: that limit is then left out, and the reasons
+        say so.
     snr_function : callable, optional
-        ``snr_function(resolution_km, radial_speed_km_s, when_s) -> SNR per element``.
+        ``snr_function(feature, element_km, radial_speed_km_s, when_s)`` ->
+        (SNR of the feature's signal per element, slant transmission, contrast).
     hidden : list of (start_s, end_s), optional
         Planet-hidden intervals (default: :func:`hidden_intervals`).
     """
@@ -310,14 +336,14 @@ def zone_crossings(track: Track, resonances, *, cadence_s: float, fresnel_km: fl
     hidden = hidden_intervals(track) if hidden is None else hidden
     out = []
     interp = track.interp
-    resonances = list(resonances)
-    radii = np.array([[r.zone_inner_km, r.zone_outer_km, r.resonance_radius_km] for r in resonances]
+    features = list(features)
+    radii = np.array([[f.zone_inner_km, f.zone_outer_km, f.resonance_radius_km] for f in features]
                      ).reshape(-1)
     crossing = crossing_times_many(track, radii) if radii.size else []
     for side, a, b in sides(track):
         r_side = interp.radius(np.array([a, b]))
-        for k, res in enumerate(resonances):
-            win = _radius_window(track, a, b, res.zone_inner_km, res.zone_outer_km,
+        for k, feat in enumerate(features):
+            win = _radius_window(track, a, b, feat.zone_inner_km, feat.zone_outer_km,
                                  crossing[3 * k], crossing[3 * k + 1], r_side)
             if win is None:
                 continue
@@ -330,42 +356,48 @@ def zone_crossings(track: Track, resonances, *, cadence_s: float, fresnel_km: fl
             speeds = np.abs(interp.radial_velocity(probe))
             v_here = float(interp.radial_velocity(np.array([when]))[0])
             vmax = float(speeds.max())
-            lam = res.shortest_wavelength_km
-            if not np.isfinite(lam):
-                lam = max(res.zone_outer_km - res.zone_inner_km, 1e-3)
-            dt_req = lam / (samples_per_wavelength * vmax) if vmax > 0 else float("inf")
             grad = float(radial_projection_factor(track, when)[0])
             scale = ray_length_ratio(track, when)
-            terms = {"cadence": vmax * cadence_s, "Fresnel scale": fresnel_km * math.sqrt(scale) * grad}
+            fresnel_ring = fresnel_km * math.sqrt(scale) * grad
+            lam = feature_scale_km(feat, fresnel_ring)
+            dt_req = lam / (samples_per_wavelength * vmax) if vmax > 0 else float("inf")
+            terms = {"cadence": vmax * cadence_s, "Fresnel scale": fresnel_ring}
             reasons = []
             if stellar_diameter_km is not None:
                 terms["stellar diameter"] = stellar_diameter_km * scale * grad
             else:
-                reasons.append("stellar diameter not evaluated (needs V and K)")
+                reasons.append("stellar diameter not evaluated (needs the star's colour)")
             resolution = math.sqrt(sum(x * x for x in terms.values()))
             limit = max(terms, key=terms.get)
             ok = resolution < lam / 2.0
+            what = "shortest wavelength" if feat.feature in ("density wave", "bending wave",
+                                                            "overlap region") else "feature scale"
             if not ok:
-                reasons.insert(0, f"achievable {resolution:.2f} km >= half the shortest "
-                                  f"wavelength ({lam / 2:.2f} km), limited by the {limit}")
+                reasons.insert(0, f"achievable {resolution:.2f} km >= half the {what} "
+                                  f"({lam / 2:.2f} km), limited by the {limit}")
             if cadence_s > dt_req:
                 ok = False
                 reasons.append(f"cadence {cadence_s:g} s is slower than the {dt_req:.3g} s "
-                               f"needed for {samples_per_wavelength:g} samples per wavelength")
-            snr = float("nan")
-            if snr_function is not None:
-                snr = float(snr_function(max(resolution, lam / 2.0), vmax, when))
+                               f"needed for {samples_per_wavelength:g} samples per {what}")
+            snr = transmission = contrast = float("nan")
+            if feat.weight <= 0:
+                reasons.append("corotation zone: listed, not scored")
+            elif snr_function is not None:
+                snr, transmission, contrast = snr_function(feat, max(resolution, lam / 2.0), vmax, when)
                 if np.isfinite(snr) and snr < min_snr:
                     ok = False
-                    reasons.append(f"SNR per resolution element {snr:.1f} < {min_snr:g}")
+                    reasons.append(f"feature SNR per resolution element {snr:.1f} < {min_snr:g} "
+                                   f"(ring transmission {transmission:.3g}, contrast {contrast:.3g})")
                 elif not np.isfinite(snr):
-                    reasons.append("SNR undefined (the planet is below the horizon then)")
+                    ok = False
+                    reasons.append("SNR undefined (the planet is below the horizon then, or "
+                                   "the background is unknown)")
             else:
                 reasons.append("SNR not evaluated (needs the star's magnitude)")
-            extent, _ = resolved_extent(res, resolution,
-                                        samples_per_wavelength * vmax * cadence_s)
+            extent, _ = resolved_extent(feat, resolution, samples_per_wavelength * vmax * cadence_s,
+                                        scale_km=lam)
             r_ends = interp.radius(np.array([start, end]))
-            fraction, whole = _observed_fraction(res, extent, float(r_ends.min()),
+            fraction, whole = _observed_fraction(feat, extent, float(r_ends.min()),
                                                  float(r_ends.max()))
             if not whole:
                 ok = False
@@ -374,15 +406,17 @@ def zone_crossings(track: Track, resonances, *, cadence_s: float, fresnel_km: fl
             u_node, u_perp = interp.in_plane(np.array([when]))[0][:, 0]
             lon = float(np.degrees(np.arctan2(u_perp, u_node)) % 360.0)
             out.append(ZoneCrossing(
-                resonance=res, side=side, time_s=t_res[0] if t_res else float("nan"),
+                feature=feat, side=side, time_s=t_res[0] if t_res else float("nan"),
                 start_s=start, end_s=end, radial_velocity_km_s=v_here,
                 max_radial_speed_km_s=vmax, ring_longitude_deg=lon, behind_planet=behind,
                 feature_scale_km=lam, required_interval_s=dt_req,
                 achievable_resolution_km=resolution, limit=limit,
-                resolvable=bool(ok and not behind), reasons=reasons + (["behind the planet"] if behind else []),
-                partial=not whole, snr_per_element=snr,
+                resolvable=bool(ok and not behind and feat.weight > 0),
+                reasons=reasons + (["behind the planet"] if behind else []),
+                partial=not whole, snr_per_element=snr, transmission=transmission,
+                contrast=contrast,
                 resolved_extent_km=0.0 if behind else extent,
                 resolved_fraction=0.0 if behind else fraction,
             ))
-    out.sort(key=lambda z: (z.start_s, z.resonance.resonance_radius_km))
+    out.sort(key=lambda z: (z.start_s, z.feature.resonance_radius_km))
     return out

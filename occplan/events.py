@@ -15,50 +15,23 @@ import numpy as np
 
 from . import __version__
 from .chords import pass_rows, ring_note
-from .coverage import (DEFAULT_MIN_SNR, DEFAULT_SAMPLES_PER_WAVELENGTH, SkyScene, hidden_intervals, zone_crossings)
+from .coverage import DEFAULT_MIN_SNR, DEFAULT_SAMPLES_PER_WAVELENGTH, hidden_intervals, zone_crossings
 from .ephemeris import J2000_TDB_JD, Observer, get_ephemeris, time_from_tdb_s, utc_iso, window_tdb_s
 from .geometry import Corrections, Track, compute_track, window_times
 
-DEFAULT_TOP_ZONES = 60
 SAFETY_NOTE = ("Pointing optics near the Sun can blind an observer and destroy a camera; the "
                "site's rules and the observatory's safety practice come first.")
 
 
-_RESONANCE_CACHE: dict = {}
+def select_features(body, max_order: int = 3, sigma_g_cm2=None, viscosity_cm2_s=None,
+                    settings=None):
+    """The features an event is checked against: the body's whole feature catalogue
+    (:func:`occplan.features.body_features`: waves that fit in their ring, resonance-held
+    edges, narrow rings, overlap regions, corotation zones), every kind kept."""
+    from .features import body_features
 
-
-def _resonances(body, max_order: int, top: int, min_torque, sigma, viscosity):
-    key = (body.path, body.name, max_order, top, min_torque, sigma, viscosity)
-    if key not in _RESONANCE_CACHE:
-        _RESONANCE_CACHE[key] = _compute_resonances(body, max_order, top, min_torque, sigma, viscosity)
-    return _RESONANCE_CACHE[key]
-
-
-def _compute_resonances(body, max_order, top, min_torque, sigma, viscosity):
-    from .resonances import find_resonances
-
-    res = find_resonances(body, max_order=max_order, min_torque=min_torque, sigma_g_cm2=sigma,
-                          viscosity_cm2_s=viscosity)
-    # CRs launch no wave (edges are kept); outside every ring region there is nothing to see
-    res = [r for r in res if (r.wave != "none" or r.edge) and r.region]
-    if min_torque is None and len(res) > top:
-        # rank by the torque itself (per-sigma torque x the region's surface density): a
-        # resonance in a tenuous ring drives a weak wave however large its coefficient
-        res = sorted(res, key=lambda r: -r.torque_dyn_cm)[:top]
-        res.sort(key=lambda r: r.resonance_radius_km)
-    return tuple(res)
-
-
-
-def select_resonances(body, max_order: int = 3, top: int = DEFAULT_TOP_ZONES, min_torque=None,
-                      sigma_g_cm2=None, viscosity_cm2_s=None):
-    """The resonance zones an event is checked against: waves and resonance-held edges.
-
-    Corotation resonances and resonances outside every ring region are left out (no wave).
-    Without ``min_torque`` the ``top`` strongest by torque (torque per unit surface density
-    times the region's surface density) are kept.
-    """
-    return list(_resonances(body, int(max_order), int(top), min_torque, sigma_g_cm2, viscosity_cm2_s))
+    return body_features(body, max_order=int(max_order), sigma_g_cm2=sigma_g_cm2,
+                         viscosity_cm2_s=viscosity_cm2_s, settings=settings)
 
 
 @dataclass
@@ -78,10 +51,11 @@ class EventReport:
     def zone_rows(self) -> list[dict]:
         rows = []
         for z in self.zones:
-            r = z.resonance
+            f = z.feature
             rows.append({
-                "label": r.label, "satellite": r.satellite, "kind": r.kind, "wave": r.wave,
-                "m": r.m, "order": r.order, "resonance_radius_km": r.resonance_radius_km,
+                "name": f.name, "feature": f.feature,
+                "label": f.label, "satellite": f.satellite, "kind": f.kind, "wave": f.wave,
+                "m": f.m, "order": f.order, "resonance_radius_km": f.resonance_radius_km,
                 "side": z.side,
                 "time_utc": None if not np.isfinite(z.time_s) else _utc(z.time_s),
                 "start_utc": _utc(z.start_s), "end_utc": _utc(z.end_s),
@@ -92,11 +66,14 @@ class EventReport:
                 "resolvable": z.resolvable, "behind_planet": z.behind_planet,
                 "resolved_extent_km": z.resolved_extent_km,
                 "resolved_fraction": z.resolved_fraction,
-                "shortest_wavelength_km": z.feature_scale_km, "limit": z.limit,
-                "snr_per_element": z.snr_per_element, "usable": z.usable,
-                "torque_per_sigma": r.torque_per_sigma, "edge": r.edge,
-                "zone_inner_km": r.zone_inner_km, "zone_outer_km": r.zone_outer_km,
-                "region": r.region, "partial": z.partial, "reasons": z.reasons,
+                "feature_scale_km": z.feature_scale_km, "limit": z.limit,
+                "amplitude": f.amplitude, "weight": f.weight,
+                "optical_depth": f.optical_depth, "transmission": z.transmission,
+                "contrast": z.contrast, "snr_per_element": z.snr_per_element,
+                "usable": z.usable, "torque_dyn_cm": f.torque_dyn_cm, "edge": f.edge,
+                "zone_inner_km": f.zone_inner_km, "zone_outer_km": f.zone_outer_km,
+                "region": f.region, "partial": z.partial, "reasons": z.reasons,
+                "note": f.note,
             })
         return rows
 
@@ -132,8 +109,7 @@ def _utc(t_s: float) -> str:
 
 def evaluate_event(body, star, observer: Observer, window, *, telescope=None, kernels=None,
                    deflection: bool = True, barycentre_only: bool = False, step_s: float = 10.0,
-                   max_order: int = 3, top_zones: int = DEFAULT_TOP_ZONES, min_torque=None,
-                   sigma_g_cm2=None, viscosity_cm2_s=None,
+                   max_order: int = 3, sigma_g_cm2=None, viscosity_cm2_s=None,
                    samples_per_wavelength: float | None = None, min_snr: float = DEFAULT_MIN_SNR,
                    luminosity_class: str = "auto", min_altitude_deg: float | None = None,
                    sun_limit_deg: float | None = None) -> EventReport:
@@ -184,13 +160,20 @@ def evaluate_event(body, star, observer: Observer, window, *, telescope=None, ke
     if sun_caution and not any("safety" in c.lower() for c in cautions):
         cautions.append(SAFETY_NOTE)
 
-    # Photometry: star rate in the band, background from the sky-plane scene.
+    # Photometry: star rate in the band; background from the planet and the rings in the
+    # aperture, blurred by the seeing (occplan.skylight); the ring's opacity attenuates the star.
+    from .skylight import ApertureBackground
+
     star_mag, photometry = _star_magnitude(star, band.name)
-    scene = SkyScene.for_track(track)
     helio = float(ph.heliocentric_distance_au(
         eph.planet_km(body, time_from_tdb_s(track.closest_approach_s), barycentre_only=True),
         eph.sun_km(time_from_tdb_s(track.closest_approach_s))))
     height_m = observer.height_m if observer.kind == "site" else 0.0
+    b_star = float(track.meta["star_elevation_deg"])
+    sky = ApertureBackground(body, band.name, tel, distance, helio, track.meta["opening_angle_deg"],
+                             b_star, track.meta["pole_position_angle_deg"],
+                             track.meta.get("sun_opening_angle_deg"))
+    photometry["background"] = sky.describe()
 
     def airmass_at(when_s):
         if not cond.applicable:
@@ -202,36 +185,35 @@ def evaluate_event(body, star, observer: Observer, window, *, telescope=None, ke
     if star_mag is not None:
         star_rate = ph.star_photon_rate(star_mag, band.name, tel.aperture_m, tel.throughput,
                                         tel.central_obstruction)
-        aperture_km = math.radians(tel.aperture_radius_arcsec / 3600.0) * distance
 
-        def snr_function(res_km, speed, when_s):
+        def snr_function(feat, element_km, speed, when_s):
+            """SNR of the feature's signal per radial element (feature_snr's formula)."""
+            transmission, contrast = ph.feature_contrast(feat.feature, feat.amplitude,
+                                                         feat.optical_depth, b_star)
+            if not sky.evaluated:
+                return float("nan"), transmission, contrast
             f = float(np.interp(when_s, track.tdb_s, track.sky_f_km))
             g = float(np.interp(when_s, track.tdb_s, track.sky_g_km))
-            fill = scene.aperture_fill(f, g, aperture_km)
-            bg = ph.background_rate(band.name, tel.aperture_m, tel.throughput,
-                                    tel.aperture_radius_arcsec, helio, body=body,
-                                    central_obstruction=tel.central_obstruction, **fill)
+            bg = sky.rates(f, g)["rate_photons_s"]
             am = airmass_at(when_s)
             if not np.isfinite(am):
-                return float("nan")
+                return float("nan"), transmission, contrast
             sig = ph.scintillation_sigma(tel.aperture_m, am, height_m, tel.exposure_s)
-            sample = ph.snr_per_sample(star_rate, bg.rate_photons_s, tel.exposure_s,
-                                       read_noise_e=tel.read_noise_e, n_pixels=tel.n_pixels,
-                                       scintillation_sigma=sig, dark_e_s=tel.dark_e_s,
-                                       scintillate_background=False)
-            element = ph.snr_per_resolution_element(sample, res_km, speed, tel.cadence_s)
-            return float(element.snr)
+            snr = ph.feature_snr(star_rate, transmission, contrast, bg, tel.exposure_s,
+                                 read_noise_e=tel.read_noise_e, n_pixels=tel.n_pixels,
+                                 scintillation_sigma=sig, dark_e_s=tel.dark_e_s,
+                                 element_km=element_km, radial_velocity_km_s=speed,
+                                 sampling_interval_s=tel.cadence_s)
+            return snr, transmission, contrast
 
         photometry.update({"star_rate_photons_s": float(star_rate),
                            "scintillation": "Young 1967 in the form of Dravins et al. 1998, "
-                                            "applied to the star (an extended background "
-                                            "scintillates far less)",
-                           "background": "planet and rings in the aperture from sky-plane "
-                                         "polygons and the body file's reflectances"})
-    resonances = select_resonances(body, max_order, top_zones, min_torque, sigma_g_cm2,
-                                   viscosity_cm2_s)
+                                            "applied to the star's transmitted light (an "
+                                            "extended background scintillates far less)",
+                           "feature_snr": ph.FEATURE_SNR_FORMULA})
+    features = select_features(body, max_order, sigma_g_cm2, viscosity_cm2_s)
     hidden = hidden_intervals(track)
-    zones = zone_crossings(track, resonances, cadence_s=tel.cadence_s, fresnel_km=fresnel,
+    zones = zone_crossings(track, features, cadence_s=tel.cadence_s, fresnel_km=fresnel,
                            stellar_diameter_km=resolution["stellar_diameter_km"],
                            samples_per_wavelength=spw, snr_function=snr_function,
                            min_snr=min_snr, hidden=hidden)
@@ -241,11 +223,12 @@ def evaluate_event(body, star, observer: Observer, window, *, telescope=None, ke
             probe = np.linspace(z.start_s, z.end_s, 5)
             z.usable = bool(np.all(np.interp(probe, times, usable) > 0.5))
     meta = dict(track.meta)
-    meta.update({"max_order": max_order, "zones_considered": len(resonances),
-                 "zone_selection": (f"the {top_zones} strongest waves and resonance-held edges "
-                                    "by torque (per-sigma torque x region sigma), orders 1.."
-                                    f"{max_order}") if min_torque is None
-                 else f"torque_per_sigma >= {min_torque:g} cm^4 s^-2",
+    from .features import load_settings
+
+    meta.update({"max_order": max_order, "features_considered": len(features),
+                 "feature_selection": (f"the body's feature catalogue (resonances of order 1.."
+                                       f"{max_order}; occplan.features, thresholds "
+                                       f"{load_settings().path})"),
                  "min_snr": min_snr, "occplan_version": __version__})
     return EventReport(track=track, zones=zones, telescope=tel, resolution=resolution,
                        photometry=photometry, observability=cond.summary(), cautions=cautions,
@@ -276,8 +259,9 @@ def _star_magnitude(star, band_name: str):
 
 
 def summary_text(rep: EventReport, max_zones: int | None = 30) -> str:
-    """One screen for people: the ``max_zones`` strongest zone crossings (by torque), in time
-    order; all of them with ``max_zones=None`` (and always in ``--format json``)."""
+    """One screen for people: the ``max_zones`` strongest feature crossings (by weight, then
+    torque), in time order; all of them with ``max_zones=None`` (and always in
+    ``--format json``)."""
     d = rep.to_json()
     tr = rep.track
     lines = [
@@ -319,34 +303,45 @@ def summary_text(rep: EventReport, max_zones: int | None = 30) -> str:
         lines.append(f"  note: {rep.photometry['note']}")
     n_res = sum(z.resolvable for z in rep.zones)
     n_part = sum((not z.resolvable) and z.resolved_fraction > 0 for z in rep.zones)
-    lines += ["", f"Resonance zones crossed: {len(rep.zones)} ({n_res} resolvable over the whole "
-                  f"wave train, {n_part} in part); {rep.meta['zone_selection']}"]
+    bg = rep.photometry.get("background", {})
+    for n in bg.get("notes", []):
+        lines.append(f"  note: {n}")
+    lines += ["", f"Features crossed: {len(rep.zones)} ({n_res} resolvable, {n_part} in part); "
+                  f"{rep.meta['feature_selection']}",
+              "  SNR: the feature's own signal per resolution element, through the ring's slant "
+              "transmission T = exp(-tau/|sin B*|), with the planet and ring light in the aperture"]
     if rep.zones:
-        lines.append(f"  {'side':7s} {'time (UTC)':12s} {'feature':22s} {'r_res km':>10s} "
-                     f"{'v km/s':>7s} {'lam km':>7s} {'dt_req s':>8s} {'res km':>7s} {'SNR':>6s}  verdict")
+        lines.append(f"  {'side':7s} {'time (UTC)':12s} {'feature':40s} {'r km':>9s} "
+                     f"{'v km/s':>7s} {'L km':>6s} {'dt_req s':>8s} {'res km':>6s} {'T':>6s} "
+                     f"{'SNR':>6s}  verdict")
     shown = rep.zones
     if max_zones is not None and len(shown) > max_zones:
-        keep = set(map(id, sorted(shown, key=lambda z: -z.resonance.torque_dyn_cm)[:max_zones]))
+        keep = set(map(id, sorted(shown, key=lambda z: (-z.feature.weight,
+                                                        -z.feature.torque_dyn_cm))[:max_zones]))
         shown = [z for z in shown if id(z) in keep]
     for z in shown:
-        r = z.resonance
+        f = z.feature
         t = _utc(z.time_s)[11:23] if np.isfinite(z.time_s) else "(partial)"
-        what = f"{r.satellite} {r.label} {'edge' if r.edge else r.kind}"
-        if z.resolvable:
+        if f.weight <= 0:
+            verdict = "listed (corotation zone, not scored)"
+        elif z.resolvable:
             verdict = "resolvable"
         elif 0 < z.resolved_fraction < 0.995 and not z.behind_planet:
-            verdict = (f"partly: first {z.resolved_extent_km:.0f} of "
-                       f"{r.zone_outer_km - r.zone_inner_km:.0f} km resolved ({z.limit}-limited)")
+            verdict = (f"partly: {z.resolved_extent_km:.0f} of {f.width_km:.0f} km resolved "
+                       f"({z.limit}-limited)")
+            if z.reasons and "SNR" in " ".join(z.reasons):
+                verdict += "; " + next(r for r in z.reasons if "SNR" in r)
         else:
             verdict = "NOT: " + (z.reasons[0] if z.reasons else "")
         if z.usable is False:
             verdict += " [not observable]"
         snr = f"{z.snr_per_element:6.1f}" if np.isfinite(z.snr_per_element) else "     -"
-        lines.append(f"  {z.side:7s} {t:12s} {what:22s} {r.resonance_radius_km:10.1f} "
-                     f"{z.radial_velocity_km_s:7.2f} {z.feature_scale_km:7.2f} "
-                     f"{z.required_interval_s:8.3f} {z.achievable_resolution_km:7.2f} {snr}  {verdict}")
+        trans = f"{z.transmission:6.3f}" if np.isfinite(z.transmission) else "     -"
+        lines.append(f"  {z.side:7s} {t:12s} {f.name[:40]:40s} {f.resonance_radius_km:9.1f} "
+                     f"{z.radial_velocity_km_s:7.2f} {z.feature_scale_km:6.2f} "
+                     f"{z.required_interval_s:8.3f} {z.achievable_resolution_km:6.2f} {trans} {snr}  {verdict}")
     if len(shown) < len(rep.zones):
-        lines.append(f"  ... the {len(shown)} strongest of {len(rep.zones)} zone crossings shown; "
+        lines.append(f"  ... the {len(shown)} strongest of {len(rep.zones)} feature crossings shown; "
                      "all are in --format json / csv / ecsv")
     ob = d["observability"]
     lines.append("")

@@ -663,3 +663,124 @@ def snr_for_telescope(telescope, star_mag, *, airmass=1.0, altitude_m=0.0,
 def heliocentric_distance_au(planet_km, sun_km) -> np.ndarray:
     """|planet - Sun| in AU from barycentric positions in km ((3,) or (3, N))."""
     return np.linalg.norm(np.asarray(planet_km) - np.asarray(sun_km), axis=0) / AU_KM
+
+
+# --------------------------------------------------------------------------- ring opacity
+
+
+def slant_transmission(normal_optical_depth, star_elevation_deg):
+    """Fraction of the star's light that passes the ring: exp(-tau / |sin B*|).
+
+    Parameters
+    ----------
+    normal_optical_depth : float or array
+        The ring's normal optical depth tau.
+    star_elevation_deg : float or array
+        Elevation B* of the star above the ring plane (deg).
+
+    Notes
+    -----
+    Extinction along the slant path through a thin ring of normal optical depth tau (the
+    exp(-tau/mu) law with mu = |sin B*|: common practice).  Diffraction by ring particles
+    removes light from the beam as well, so for a telescope that does not collect the
+    diffracted lobe this is the transmission that sets the signal (the factor 2 extinction
+    paradox does not apply at Earth's distance; common practice).
+    """
+    tau = np.asarray(normal_optical_depth, dtype=float)
+    mu = np.abs(np.sin(np.radians(np.asarray(star_elevation_deg, dtype=float))))
+    with np.errstate(divide="ignore", over="ignore"):
+        return np.exp(-tau / np.maximum(mu, 1e-12))
+
+
+def feature_contrast(feature_kind: str, amplitude: float, normal_optical_depth: float,
+                     star_elevation_deg: float) -> tuple[float, float]:
+    """Slant transmission of the ring and the feature's signal, both as fractions of the
+    unocculted star.
+
+    Parameters
+    ----------
+    feature_kind : str
+        'density wave', 'overlap region', 'bending wave', 'edge', 'narrow ring' or
+        'corotation' (:data:`occplan.features.FEATURE_KINDS`).
+    amplitude : float
+        Peak fractional surface-density amplitude (a bending wave's slope), as
+        :class:`occplan.features.Feature` gives it.
+    normal_optical_depth, star_elevation_deg : float
+
+    Returns
+    -------
+    (transmission, contrast) : floats
+        contrast nan for corotation zones (linear theory gives no profile).
+
+    Notes
+    -----
+    With T = exp(-tau/mu), mu = |sin B*|:
+
+    - a wave modulating the optical depth by a fraction a (a = min(1, amplitude); for a
+      bending wave a = min(1, slope x cot|B*|), the change of the slant path with the ring's
+      local tilt, Shu, Cuzzi & Lissauer 1983, from memory) swings the transmission between
+      exp(-tau (1 -+ a) / mu); half of that swing is T sinh(a tau / mu) (= T a tau / mu for
+      small a);
+    - an edge or a narrow ring steps the transmission between T and 1: contrast 1 - T.
+    """
+    b = float(star_elevation_deg)
+    tau = float(normal_optical_depth)
+    mu = max(abs(math.sin(math.radians(b))), 1e-12)
+    t = float(slant_transmission(tau, b))
+    if feature_kind in ("edge", "narrow ring"):
+        return t, 1.0 - t
+    if feature_kind in ("density wave", "overlap region"):
+        a = min(1.0, float(amplitude))
+    elif feature_kind == "bending wave":
+        a = min(1.0, float(amplitude) * abs(math.cos(math.radians(b))) / mu)
+    else:
+        return t, float("nan")
+    with np.errstate(over="ignore"):
+        return t, float(t * math.sinh(min(a * tau / mu, 700.0)))
+
+
+FEATURE_SNR_FORMULA = (
+    "SNR = c S sqrt(N) / sqrt(T S + B t + n_pix (RN^2 + D t) + (sigma_scint T S)^2): S the "
+    "unocculted star's photo-electrons per sample, T = exp(-tau/|sin B*|) the ring's slant "
+    "transmission, c the feature's signal as a fraction of S (occplan.photometry."
+    "feature_contrast), B the planet and ring light in the aperture, t the exposure, N = "
+    "element / (|dr/dt| dt) >= 1 samples per radial element")
+
+
+def feature_snr(star_rate_e_s, transmission, contrast, background_rate_e_s, exposure_s, *,
+                read_noise_e, n_pixels, scintillation_sigma, dark_e_s, element_km,
+                radial_velocity_km_s, sampling_interval_s) -> float:
+    """Signal to noise of a ring feature's signal per radial resolution element.
+
+    Parameters
+    ----------
+    star_rate_e_s : float
+        The unocculted star's detected rate (e/s).
+    transmission, contrast : float
+        From :func:`feature_contrast`.
+    background_rate_e_s : float
+        Planet and ring light in the aperture (e/s).
+    exposure_s, read_noise_e, n_pixels, scintillation_sigma, dark_e_s :
+        As :func:`snr_per_sample`.
+    element_km, radial_velocity_km_s, sampling_interval_s : float
+        Radial element, |dr/dt| and cadence: N = element / (|v| dt) samples (at least 1)
+        per element (:func:`snr_per_resolution_element`).
+
+    Notes
+    -----
+    :data:`FEATURE_SNR_FORMULA`.  The noise is that of the star seen through the ring (its
+    shot noise and scintillation scale with T) plus the background, read and dark noise: the
+    usual CCD budget (common practice).  The signal is the feature's swing, c S per sample.
+    """
+    if not np.isfinite(contrast):
+        return float("nan")
+    noise = snr_per_sample(float(star_rate_e_s) * float(transmission), background_rate_e_s,
+                           exposure_s, read_noise_e=read_noise_e, n_pixels=n_pixels,
+                           scintillation_sigma=scintillation_sigma, dark_e_s=dark_e_s,
+                           scintillate_background=False)
+    signal = float(contrast) * float(star_rate_e_s) * noise.exposure_s
+    total = float(noise.total_noise_e)
+    per_sample = signal / total if total > 0 else float("inf")
+    v = abs(float(radial_velocity_km_s))
+    n = float(element_km) / (v * float(sampling_interval_s)) if v > 0 else 1.0
+    return per_sample * math.sqrt(max(n, 1.0))

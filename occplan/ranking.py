@@ -1,31 +1,44 @@
-"""Scores of candidate events by resonance coverage (the API behind `occplan rank`).
+"""Scores of candidate events by the ring features they resolve (the API behind `occplan rank`).
 
-An event's score is a sum over the resonance zones its chord crosses, ingress and egress
-counted separately (they are two radial profiles):
+An event's score is a sum over the features its chord records (:mod:`occplan.features`),
+each counted once however many resonance terms it merges:
 
-    score = sum_z  w_side x strength_z x resolvable_z x snr_z x usable_z
+    score = sum_f  [ v_f,1 + d_12 v_f,2 ],     v = side x weight x resolved x q_snr x usable
 
-- strength_z = floor + (1 - floor) x (log10 T_z - log10 T_min) / (log10 T_max - log10 T_min):
-  T_z the resonance torque, torque per unit surface density times the region's surface
-  density (Goldreich & Tremaine 1979; the strength measure of :mod:`occplan.resonances`),
-  normalised in log over the zones the body is checked against
-  (:func:`occplan.events.select_resonances`), so that 1 is the strongest.
-- resolvable_z: 1 when the zone is resolved at the site's cadence, Fresnel scale and stellar
-  diameter (:mod:`occplan.coverage`); when not, ``unresolved`` plus (1 - ``unresolved``)
-  times the resolved fraction of the wave train (the part near the resonance whose
-  wavelength is still above twice the resolution); ``hidden`` behind the planet's disk.
-- snr_z = min(1, SNR_half / reference), SNR_half the signal to noise per element of half the
-  zone's shortest wavelength: the reported SNR per element scaled by sqrt(element size)
-  (SNR_element = SNR_sample sqrt(N), :func:`occplan.photometry.snr_per_resolution_element`),
-  so the factor measures the same scale whatever the cadence.  ``unknown`` without magnitudes.
-- usable_z: observability over the zone crossing at the site (altitude, Sun), 1 or
-  ``unusable``; ``unknown`` where not evaluated (geocentre).
+where v_f,1 >= v_f,2 are the values of the feature's crossings on the two sides of the chord
+(ingress and egress, two radial profiles at two ring longitudes) and
 
-The weights live in ``occplan/data/ranking_weights.toml`` (each with its reason).  The score
-is monotonic by construction where the physics is: a faster cadence only lowers the
-achievable resolution, so it can only turn zones resolvable (and, where read noise is small
-against the star's photon noise, leaves SNR_half unchanged: a faster readout can be binned to
-a slower one); a crossing hidden by daylight only loses its usable factor.
+- weight = min(1, A) x kind: A the feature's observable amplitude (peak fractional
+  surface-density amplitude of a wave, 1 for an edge or a narrow ring; a nonlinear wave
+  saturates at 1), ``kind`` a per-kind factor (corotation zones 0: linear theory predicts no
+  profile);
+- resolved = the resolved fraction of the feature (0 behind the planet): the part of a wave
+  train whose wavelength stays above twice the achievable resolution and N samples, or 1/0
+  for an edge, a narrow ring or an overlap region (:mod:`occplan.coverage`).  No credit
+  floor: an unresolved feature earns nothing;
+- q_snr = SNR^2 / (SNR^2 + reference^2), SNR the feature's own signal per resolution
+  element through the ring's slant transmission (:func:`occplan.photometry.feature_snr`):
+  grows with every photon and saturates at 1, so a brighter star or a larger telescope
+  always helps until the feature is measured; ``snr.unknown`` where it cannot be evaluated
+  (no magnitude in the band, or no reflectance for the background);
+- usable = 1 when observable over the crossing at the site, 0 when not (daylight, low
+  altitude).  Crossings whose observability was not evaluated (geocentre, spacecraft) are
+  left out of ``score`` and summed in ``potential_score`` instead: the rank orders known
+  observable events by ``score`` first, then the unknown ones by their potential;
+- d_12 = diversity x (1 - cos(lambda_1 - lambda_2)) / 2: the second crossing of the same
+  feature adds in proportion to how far apart in ring longitude it samples it (1 at
+  opposite ansae, 0 at the same longitude), so both ansae are rewarded and repeated
+  crossings saturate.
+
+The weights live in ``occplan/data/ranking_weights.toml`` (each with its reason).
+Monotonic by construction: a faster cadence only lowers the achievable resolution (more of
+each feature resolved); a brighter star or a larger aperture only raises every SNR
+(q_snr strictly increases while SNR is finite); a crossing hidden by daylight only loses its
+usable factor; duplicating a resonance term changes no feature.
+
+Worked example (the numbers of tests/test_ranking.py): an edge (weight 1) crossed on both
+sides, resolved, SNR 10 and 5 with reference 5, 150 deg apart in longitude:
+v1 = 100/125 = 0.8, v2 = 25/50 = 0.5, d = (1 - cos 150 deg)/2 = 0.933: 0.8 + 0.467 = 1.267.
 """
 
 from __future__ import annotations
@@ -42,11 +55,11 @@ import numpy as np
 from .errors import DataFileError, GeometryError, InputError
 
 WEIGHT_KEYS = {
-    "strength": {"floor"},
-    "resolvable": {"resolvable", "unresolved", "hidden"},
+    "kinds": {"density_wave", "bending_wave", "edge", "narrow_ring", "overlap_region"},
     "snr": {"reference", "unknown"},
-    "usable": {"usable", "unusable", "unknown"},
+    "usable": {"usable", "unusable"},
     "sides": {"ingress", "egress"},
+    "diversity": {"second_crossing"},
 }
 EVAL_PAD_S = 600.0  # the evaluation window reaches 10 min beyond the first and last ring crossing
 
@@ -62,6 +75,10 @@ class Weights:
     def __getitem__(self, key: str) -> float:
         table, name = key.split(".")
         return float(self.values[table][name])
+
+    def kind(self, feature: str) -> float:
+        key = feature.replace(" ", "_")
+        return float(self.values["kinds"].get(key, 0.0))
 
     def describe(self) -> dict:
         return {"path": self.path, **{t: dict(v) for t, v in self.values.items()}}
@@ -90,7 +107,11 @@ def load_weights(path: str | Path | None = None) -> Weights:
         where = str(p)
         if not p.is_file():
             raise DataFileError(f"weights file {where!r} not found")
-        user = _parse_weights(p.read_text(encoding="utf-8"), repr(where))
+        try:
+            text = p.read_bytes().decode("utf-8")
+        except UnicodeDecodeError:
+            raise DataFileError(f"weights file {where!r} is not UTF-8 text") from None
+        user = _parse_weights(text, repr(where))
         user.pop("source", None)
         for table, entries in user.items():
             if table not in WEIGHT_KEYS or not isinstance(entries, dict):
@@ -105,118 +126,163 @@ def load_weights(path: str | Path | None = None) -> Weights:
         for key, value in entries.items():
             if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value) or value < 0:
                 raise DataFileError(f"weight {table}.{key} = {value!r} must be a number >= 0")
-    if not 0 <= values["strength"]["floor"] <= 1:
-        raise DataFileError("weight strength.floor must be in [0, 1]")
     if values["snr"]["reference"] <= 0:
         raise DataFileError("weight snr.reference must be > 0")
+    if values["snr"]["unknown"] > 1 or values["diversity"]["second_crossing"] > 1:
+        raise DataFileError("weights snr.unknown and diversity.second_crossing must be <= 1")
     return Weights(values=values, sources=sources, path=where or default_weights_path())
 
 
-# --------------------------------------------------------------------------- zone records
-
-
-def torque_range_log10(resonances) -> tuple[float, float]:
-    """(log10 T_min, log10 T_max) over the zones an event is checked against (dyn cm)."""
-    t = np.array([r.torque_dyn_cm for r in resonances], dtype=float)
-    t = t[t > 0]
-    if t.size == 0:
-        return (0.0, 0.0)
-    return float(np.log10(t.min())), float(np.log10(t.max()))
+# --------------------------------------------------------------------------- crossing records
 
 
 def zone_record(z) -> dict:
     """What the score needs of one :class:`occplan.coverage.ZoneCrossing` (JSON-ready)."""
-    r = z.resonance
+    f = z.feature
     return {
-        "label": r.label, "satellite": r.satellite, "kind": "edge" if r.edge else r.kind,
-        "side": z.side, "resonance_radius_km": float(r.resonance_radius_km),
-        "torque_dyn_cm": r.torque_dyn_cm, "resolvable": bool(z.resolvable),
+        "name": f.name, "feature": f.feature, "label": f.label, "satellite": f.satellite,
+        "kind": f.kind, "side": z.side, "resonance_radius_km": float(f.resonance_radius_km),
+        "weight": float(f.weight), "amplitude": float(f.amplitude),
+        "torque_dyn_cm": float(f.torque_dyn_cm), "resolvable": bool(z.resolvable),
         "behind_planet": bool(z.behind_planet),
         "snr_per_element": float(z.snr_per_element),
-        "shortest_wavelength_km": float(z.feature_scale_km),
+        "transmission": float(z.transmission),
+        "feature_scale_km": float(z.feature_scale_km),
         "achievable_resolution_km": float(z.achievable_resolution_km),
         "resolved_fraction": float(z.resolved_fraction),
+        "ring_longitude_deg": float(z.ring_longitude_deg),
         "usable": z.usable,
     }
 
 
-def zone_factors(rec: dict, weights: Weights, torque_log10: tuple[float, float]) -> dict:
-    """Every factor of one zone crossing and its contribution (module docstring)."""
-    lo, hi = torque_log10
-    t = rec["torque_dyn_cm"]
-    norm = 1.0 if hi <= lo else (math.log10(t) - lo) / (hi - lo) if t and t > 0 else 0.0
-    floor = weights["strength.floor"]
-    strength = floor + (1.0 - floor) * min(max(norm, 0.0), 1.0)
-    if rec["behind_planet"]:
-        resolvable = weights["resolvable.hidden"]
-    elif rec["resolvable"]:
-        resolvable = weights["resolvable.resolvable"]
+def _number(rec: dict, key: str, where: str = "zone record") -> float:
+    v = rec.get(key)
+    if v is None:
+        return float("nan")
+    if isinstance(v, bool) or not isinstance(v, (int, float)):
+        raise DataFileError(f"{where}: field {key!r} = {v!r} must be a number")
+    return float(v)
+
+
+def zone_factors(rec: dict, weights: Weights) -> dict:
+    """Every factor of one feature crossing and its value v (module docstring)."""
+    weight = _number(rec, "weight")
+    weight = 0.0 if not np.isfinite(weight) else min(max(weight, 0.0), 1.0)
+    kind = weights.kind(str(rec.get("feature", "")))
+    if rec.get("behind_planet"):
+        resolved = 0.0
     else:
-        # partial credit for the part of the wave train that is resolved (near the
-        # resonance, where the wavelength is longest: occplan.coverage.resolved_extent)
-        lo_w, hi_w = weights["resolvable.unresolved"], weights["resolvable.resolvable"]
-        frac = min(max(float(rec.get("resolved_fraction", 0.0) or 0.0), 0.0), 1.0)
-        resolvable = lo_w + (hi_w - lo_w) * frac
-    snr = rec.get("snr_per_element")
-    lam = rec["shortest_wavelength_km"]
-    res = rec["achievable_resolution_km"]
-    if snr is None or not np.isfinite(snr):
-        snr_half = float("nan")
-        snr_factor = weights["snr.unknown"]
+        frac = _number(rec, "resolved_fraction")
+        resolved = min(max(frac, 0.0), 1.0) if np.isfinite(frac) else 0.0
+    snr = _number(rec, "snr_per_element")
+    ref = weights["snr.reference"]
+    if np.isfinite(snr) and snr >= 0:
+        q_snr = snr * snr / (snr * snr + ref * ref)
+    elif snr == float("inf"):
+        q_snr = 1.0
     else:
-        element = max(res, lam / 2.0)
-        snr_half = float(snr) * math.sqrt((lam / 2.0) / element) if element > 0 else float(snr)
-        snr_factor = min(1.0, snr_half / weights["snr.reference"])
+        q_snr = weights["snr.unknown"]
     usable = rec.get("usable")
-    usable_factor = (weights["usable.unknown"] if usable is None else
+    usable_factor = (float("nan") if usable is None else
                      weights["usable.usable"] if usable else weights["usable.unusable"])
-    side = weights["sides.ingress"] if rec["side"] == "ingress" else weights["sides.egress"]
-    return {"strength": strength, "resolvable_factor": resolvable, "snr_half_wavelength": snr_half,
-            "snr_factor": snr_factor, "usable_factor": usable_factor, "side_weight": side,
-            "contribution": side * strength * resolvable * snr_factor * usable_factor}
+    side = weights["sides.ingress"] if rec.get("side") == "ingress" else weights["sides.egress"]
+    value_if_usable = side * weight * kind * resolved * q_snr
+    return {"weight": weight, "kind_factor": kind, "resolved_factor": resolved,
+            "snr_factor": q_snr, "usable_factor": usable_factor, "side_weight": side,
+            "value_if_observable": value_if_usable,
+            "value": 0.0 if usable is None else value_if_usable * usable_factor}
 
 
-def score_zones(records: list[dict], weights: Weights, torque_log10: tuple[float, float]) -> dict:
-    """An event's score, the sums of its factors, and the reasons in words."""
-    out = {"score": 0.0, "score_ingress": 0.0, "score_egress": 0.0, "zones_crossed": len(records),
-           "zones_resolvable": 0, "zones_hidden": 0, "zones_unusable": 0,
-           "strength_sum": 0.0, "resolvable_factor_sum": 0.0, "snr_factor_sum": 0.0,
-           "usable_factor_sum": 0.0, "best_zone": "", "zone_factors": []}
-    best = -1.0
+def _feature_value(crossings: list[tuple[float, float]], diversity: float) -> float:
+    """v1 + sum_i d_i v_i over the crossings (value, longitude) sorted by value; d_i is the
+    smallest longitude diversity (1 - cos dlon)/2 to any better crossing."""
+    ordered = sorted(crossings, key=lambda c: -c[0])
+    total = 0.0
+    for i, (v, lon) in enumerate(ordered):
+        if i == 0:
+            total += v
+            continue
+        d = min((1.0 - math.cos(math.radians(lon - ordered[j][1]))) / 2.0 for j in range(i))
+        total += diversity * d * v
+    return total
+
+
+def score_zones(records: list[dict], weights: Weights) -> dict:
+    """An event's score, its factors, the features that decide it and the reasons in words."""
+    per_feature: dict = {}
+    factors = []
+    out = {"score": 0.0, "potential_score": 0.0, "score_ingress": 0.0, "score_egress": 0.0,
+           "features_crossed": 0, "feature_crossings": len(records), "features_resolvable": 0,
+           "features_both_sides": 0, "crossings_hidden": 0, "crossings_unusable": 0,
+           "observability": "unknown", "best_feature": "", "deciding_features": "",
+           "zone_factors": factors}
     for rec in records:
-        f = zone_factors(rec, weights, torque_log10)
-        out["zone_factors"].append({"label": rec["label"], "satellite": rec["satellite"],
-                                    "kind": rec["kind"], "side": rec["side"], **f})
-        out["score"] += f["contribution"]
-        out["score_" + ("ingress" if rec["side"] == "ingress" else "egress")] += f["contribution"]
-        out["zones_resolvable"] += bool(rec["resolvable"])
-        out["zones_hidden"] += bool(rec["behind_planet"])
-        out["zones_unusable"] += rec.get("usable") is False
-        out["strength_sum"] += f["strength"]
-        out["resolvable_factor_sum"] += f["resolvable_factor"]
-        out["snr_factor_sum"] += f["snr_factor"]
-        out["usable_factor_sum"] += f["usable_factor"]
-        if f["contribution"] > best:
-            best = f["contribution"]
-            out["best_zone"] = f"{rec['satellite']} {rec['label']} {rec['kind']} ({rec['side']})"
+        if not isinstance(rec, dict):
+            raise DataFileError(f"zone record {rec!r} is not an object")
+        f = zone_factors(rec, weights)
+        lon = _number(rec, "ring_longitude_deg")
+        lon = 0.0 if not np.isfinite(lon) else lon
+        factors.append({"name": rec.get("name", ""), "feature": rec.get("feature", ""),
+                        "side": rec.get("side", ""), **f})
+        entry = per_feature.setdefault(str(rec.get("name", "")), {"known": [], "potential": [],
+                                                                   "sides": set(), "resolvable": False})
+        usable = rec.get("usable")
+        if usable is not False:
+            entry["potential"].append((f["value_if_observable"], lon))
+        if usable is True:
+            entry["known"].append((f["value"], lon))
+            key = "score_ingress" if rec.get("side") == "ingress" else "score_egress"
+            out[key] += f["value"]
+        if f["value_if_observable"] > 0 and usable is not False:
+            entry["sides"].add(rec.get("side"))
+        entry["resolvable"] |= bool(rec.get("resolvable"))
+        out["crossings_hidden"] += bool(rec.get("behind_planet"))
+        out["crossings_unusable"] += usable is False
+    diversity = weights["diversity.second_crossing"]
+    values = {}
+    for name, e in per_feature.items():
+        values[name] = (_feature_value(e["known"], diversity), _feature_value(e["potential"], diversity))
+        out["score"] += values[name][0]
+        out["potential_score"] += values[name][1]
+        out["features_resolvable"] += e["resolvable"]
+        out["features_both_sides"] += len(e["sides"]) == 2
+    out["features_crossed"] = len(per_feature)
+    usables = [r.get("usable") for r in records]
+    if any(u is True for u in usables):
+        out["observability"] = "observable" if all(u is not None for u in usables) else "partly evaluated"
+    elif usables and all(u is False for u in usables):
+        out["observability"] = "not observable"
+    elif any(u is False for u in usables):
+        out["observability"] = "not observable" if not any(u is None for u in usables) else "unknown"
+    col = 1 if out["observability"] == "unknown" else 0
+    top = sorted(values.items(), key=lambda kv: -kv[1][col])
+    top = [(n, v[col]) for n, v in top if v[col] > 0]
+    if top:
+        out["best_feature"] = top[0][0]
+        out["deciding_features"] = "; ".join(
+            f"{n} ({v:.2f}{', both sides' if len(per_feature[n]['sides']) == 2 else ''})"
+            for n, v in top[:3])
     out["reasons"] = _reasons(out, records)
     return out
 
 
 def _reasons(s: dict, records: list[dict]) -> str:
     if not records:
-        return "no resonance zone on the chord"
-    parts = [f"{s['zones_crossed']} zone crossings, {s['zones_resolvable']} resolvable"]
-    if s["zones_hidden"]:
-        parts.append(f"{s['zones_hidden']} behind the planet")
-    if s["zones_unusable"]:
-        parts.append(f"{s['zones_unusable']} not observable (daylight or low altitude)")
-    if all(r.get("usable") is None for r in records):
-        parts.append("observability not evaluated")
+        return "no ring feature on the chord"
+    parts = [f"{s['features_crossed']} features crossed ({s['feature_crossings']} crossings), "
+             f"{s['features_resolvable']} resolvable, {s['features_both_sides']} on both sides"]
+    if s["crossings_hidden"]:
+        parts.append(f"{s['crossings_hidden']} crossings behind the planet")
+    if s["crossings_unusable"]:
+        parts.append(f"{s['crossings_unusable']} not observable (daylight or low altitude)")
+    if s["observability"] == "unknown":
+        parts.append(f"observability not evaluated (no site): score 0, potential "
+                     f"{s['potential_score']:.2f} if observable")
     if all(r.get("snr_per_element") is None or not np.isfinite(r["snr_per_element"]) for r in records):
-        parts.append("SNR not evaluated (magnitude unknown, or the planet below the horizon)")
-    if s["best_zone"]:
-        parts.append(f"best: {s['best_zone']}")
+        parts.append("SNR not evaluated (magnitude or background unknown, or the planet below "
+                     "the horizon): counted at the 'unknown' SNR factor")
+    if s["deciding_features"]:
+        parts.append(f"deciding: {s['deciding_features']}")
     return "; ".join(parts)
 
 
@@ -248,11 +314,11 @@ def _telescope_for(site, settings: RankSettings):
 def evaluate_and_score(body, star, observer, window_s, *, site=None, kernels=None,
                        corrections=None, settings: RankSettings = RankSettings(),
                        weights: Weights | None = None):
-    """Zones on one event's chord (:func:`occplan.events.evaluate_event`) and its score.
+    """Features on one event's chord (:func:`occplan.events.evaluate_event`) and its score.
 
-    Returns (zone records, score dict, telescope name).
+    Returns (crossing records, score dict, telescope name).
     """
-    from .events import evaluate_event, select_resonances
+    from .events import evaluate_event
     from .geometry import Corrections
 
     corrections = corrections or Corrections()
@@ -265,9 +331,7 @@ def evaluate_and_score(body, star, observer, window_s, *, site=None, kernels=Non
                          min_snr=settings.min_snr, luminosity_class=settings.luminosity_class,
                          min_altitude_deg=getattr(site, "min_altitude_deg", None))
     records = [zone_record(z) for z in rep.zones]
-    trange = torque_range_log10(select_resonances(body, settings.max_order,
-                                                  sigma_g_cm2=settings.sigma_g_cm2))
-    return records, score_zones(records, weights, trange), tel.name
+    return records, score_zones(records, weights), tel.name
 
 
 def evaluation_window(ev) -> tuple[float, float]:
@@ -281,10 +345,9 @@ def score_events(result, *, kernels=None, corrections=None, settings: RankSettin
                  weights: Weights | None = None, progress=None) -> None:
     """Evaluate and score every event of a :class:`occplan.search.SearchResult` in place.
 
-    Each event gets ``zones`` (records) and ``score`` (factors, sums, reasons); the result's
-    meta gets the weights and the torque normalisation.
+    Each event gets ``zones`` (crossing records) and ``score`` (factors, sums, reasons); the
+    result's meta gets the weights.
     """
-    from .events import select_resonances
     from .search import _progress
 
     weights = weights or load_weights()
@@ -292,7 +355,7 @@ def score_events(result, *, kernels=None, corrections=None, settings: RankSettin
     try:
         for ev in result.events:
             if not ev.crosses_rings:
-                ev.zones, ev.score = [], score_zones([], weights, (0.0, 0.0))
+                ev.zones, ev.score = [], score_zones([], weights)
                 ev.score["telescope"] = ""
             else:
                 try:
@@ -301,7 +364,7 @@ def score_events(result, *, kernels=None, corrections=None, settings: RankSettin
                         site=ev.site, kernels=kernels, corrections=corrections,
                         settings=settings, weights=weights)
                 except GeometryError as exc:
-                    records, score, tel = [], score_zones([], weights, (0.0, 0.0)), ""
+                    records, score, tel = [], score_zones([], weights), ""
                     score["reasons"] = str(exc)
                 ev.zones, ev.score = records, score
                 ev.score["telescope"] = tel
@@ -310,21 +373,27 @@ def score_events(result, *, kernels=None, corrections=None, settings: RankSettin
     finally:
         if bar is not None:
             bar.stop()
-    trange = torque_range_log10(select_resonances(result.body, settings.max_order,
-                                                  sigma_g_cm2=settings.sigma_g_cm2))
-    result.meta["ranking"] = ranking_meta(weights, trange, settings)
+    result.meta["ranking"] = ranking_meta(weights, settings)
 
 
-def ranking_meta(weights: Weights, trange, settings: RankSettings) -> dict:
-    return {"weights": weights.describe(), "torque_range_log10_dyn_cm": list(trange),
+SCORE_FORMULA = ("score = sum over features of v1 + d v2 (the feature's two crossings, d = "
+                 "(1 - cos dlon)/2), v = side x min(1, amplitude) x kind x resolved_fraction x "
+                 "SNR^2/(SNR^2 + ref^2) x usable; crossings of unknown observability go to "
+                 "potential_score (occplan.ranking)")
+
+
+def ranking_meta(weights: Weights, settings: RankSettings) -> dict:
+    from .features import load_settings
+
+    return {"weights": weights.describe(), "features": load_settings().describe(),
             "max_order": settings.max_order, "min_snr": settings.min_snr,
-            "formula": "score = sum over zone crossings of side_weight x strength x "
-                       "resolvable_factor x snr_factor x usable_factor (occplan.ranking)"}
+            "formula": SCORE_FORMULA}
 
 
-SCORE_FIELDS = ("score", "score_ingress", "score_egress", "zones_crossed", "zones_resolvable",
-                "zones_hidden", "zones_unusable", "strength_sum", "resolvable_factor_sum",
-                "snr_factor_sum", "usable_factor_sum", "best_zone", "reasons", "telescope")
+SCORE_FIELDS = ("score", "potential_score", "observability", "score_ingress", "score_egress",
+                "features_crossed", "feature_crossings", "features_resolvable",
+                "features_both_sides", "crossings_hidden", "crossings_unusable", "best_feature",
+                "deciding_features", "reasons", "telescope")
 
 
 def event_rows(result) -> list[dict]:
@@ -340,15 +409,16 @@ def event_rows(result) -> list[dict]:
 
 
 def rescore_rows(rows: list[dict], meta: dict, weights: Weights) -> list[dict]:
-    """Rescore find rows (which carry their zone records) with other weights."""
-    trange = tuple(meta.get("ranking", {}).get("torque_range_log10_dyn_cm", (0.0, 0.0)))
+    """Rescore find rows (which carry their crossing records) with other weights."""
     out = []
     for row in rows:
         zones = row.get("zones")
+        if zones is not None and not isinstance(zones, list):
+            raise DataFileError(f"find result row {row.get('star_id')!r}: 'zones' must be a list")
         if zones is None:
             raise InputError("the find result has no zone records (it was written with "
                              "--no-zones); run occplan rank with the search options instead")
-        s = score_zones(zones, weights, trange)
+        s = score_zones(zones, weights)
         new = dict(row)
         for key in SCORE_FIELDS:
             if key in s:
@@ -359,8 +429,10 @@ def rescore_rows(rows: list[dict], meta: dict, weights: Weights) -> list[dict]:
 
 
 def rank_rows(rows: list[dict]) -> list[dict]:
-    """Rows sorted by score (highest first; ties by time), with a 1-based ``rank``."""
-    ordered = sorted(rows, key=lambda r: (-(r.get("score") or 0.0), r.get("closest_approach_utc") or ""))
+    """Rows sorted by score (highest first), then by potential score (events whose
+    observability is unknown: geocentre, spacecraft), then by time; with a 1-based ``rank``."""
+    ordered = sorted(rows, key=lambda r: (-(r.get("score") or 0.0), -(r.get("potential_score") or 0.0),
+                                          r.get("closest_approach_utc") or ""))
     for i, r in enumerate(ordered):
         r["rank"] = i + 1
     return ordered
@@ -462,7 +534,7 @@ def reevaluate_rows(rows: list[dict], meta: dict, *, settings: RankSettings = Ra
                                                          kernels=kernels, corrections=corrections,
                                                          settings=settings, weights=weights)
             else:
-                records, score, tel = [], score_zones([], weights, (0.0, 0.0)), ""
+                records, score, tel = [], score_zones([], weights), ""
             for key in SCORE_FIELDS:
                 if key in score:
                     new[key] = score[key]
@@ -474,8 +546,5 @@ def reevaluate_rows(rows: list[dict], meta: dict, *, settings: RankSettings = Ra
     finally:
         if bar is not None:
             bar.stop()
-    from .events import select_resonances
-
-    meta["ranking"] = ranking_meta(weights, torque_range_log10(select_resonances(
-        body, settings.max_order, sigma_g_cm2=settings.sigma_g_cm2)), settings)
+    meta["ranking"] = ranking_meta(weights, settings)
     return out

@@ -34,7 +34,9 @@ every four years, moving their resonances by ~20 km (Janus) and ~80 km (Epimethe
 body file gives one epoch's orbits, and each moon is treated separately.
 
 Strengths: see :func:`forcing_potentials` and :func:`torque_per_sigma`; wave zones: see
-:func:`wave_zones`; resonance-held edges: see :func:`mark_edges`.
+:func:`wave_zones`.  Which of these terms are observable features (waves that fit in
+their ring, resonance-held edges, narrow rings, overlap regions) is decided in
+:mod:`occplan.features`.
 """
 
 from __future__ import annotations
@@ -98,7 +100,8 @@ class Resonance:
     propagation : str
         'outward', 'inward' or 'none'.
     zone_inner_km, zone_outer_km : float
-        Radial interval of the wave train (or of the narrow corotation / edge zone).
+        Radial interval of the linear wave train, or the libration zone of a corotation
+        resonance (not yet clipped at ring edges: see :mod:`occplan.features`).
     first_wavelength_km, damping_length_km, shortest_wavelength_km : float
         nan where there is no wave.  shortest_wavelength_km is the shortest wavelength
         inside the zone, the one an observer must resolve.
@@ -106,8 +109,6 @@ class Resonance:
         Surface density used (region value or override; nan outside every region).
     region : str
         Ring region at the resonance ('' if none).
-    edge : bool
-        True for a resonance-held ring edge (:func:`mark_edges`).
     strength_method : str
         'closed form', 'kepler quadrature' or 'factorised' (:func:`forcing_potentials`).
     """
@@ -131,7 +132,6 @@ class Resonance:
     shortest_wavelength_km: float
     surface_density_g_cm2: float
     region: str
-    edge: bool = False
     strength_method: str = "closed form"
 
     @property
@@ -438,56 +438,6 @@ def corotation_half_width_km(phi, r, n, r_dn2, kappa):
     return 2.0 * np.sqrt(np.abs(phi) / (d_omega * dl_dr))
 
 
-# --- edges ----------------------------------------------------------------------------------
-
-def mark_edges(body, res, edge_distance_km=EDGE_DISTANCE_KM, viscosity_cm2_s=None):
-    """Indices of resonances that hold a ring-region edge, with the edge radius and region.
-
-    A resonance is taken to hold an edge when all of these hold:
-
-    1. it is a first-order Lindblad resonance (k = p = 0): an ILR at the *outer* edge of a
-       region or an OLR at the *inner* edge (the satellite pushes the ring away from itself);
-    2. it lies within ``edge_distance_km`` (30 km) of that edge in the body file;
-    3. its torque exceeds a fraction of the ring's viscous angular-momentum flux,
-       T >= 0.05 * 3 pi nu_v sigma Omega r^2, with the edge region's typical viscosity (or
-       the ``viscosity_cm2_s`` override).  Borderies, Goldreich & Tremaine 1982 compare the
-       two; the factor 0.05 is a heuristic allowing for the order-of-magnitude viscosities
-       of the body files (with the Saturn file, Janus 7:6 reaches 0.095 of the A ring's
-       flux at nu = 100 cm^2/s, Mimas 2:1 1.5 times the B ring's);
-    4. its neighbours of the same satellite (m +- 1) are farther apart than
-       ``edge_distance_km`` (about (2/3) r / (m (m -+ 1))), so the match is not a chance
-       one in a dense comb of resonances near a moon.
-
-    ``res`` holds (kind, m, k, p, r_km, torque_km4_s2, n_rad_s) tuples.  Examples this finds
-    in the built-in files: Mimas 2:1 at the B ring outer edge, Janus 7:6 at the A ring outer
-    edge, Cordelia 23:22 at the Uranian delta ring's outer edge.  Narrow eccentric rings
-    whose body-file limits are radial envelopes (Uranus's epsilon ring) are matched on the
-    edge semi-major axes the body file gives (``edge_inner_a_km``/``edge_outer_a_km``).
-    """
-    hits = []
-    for i, (kind, m, k, p, r, torque, n) in enumerate(res):
-        if k != 0 or p != 0 or kind not in ("ILR", "OLR"):
-            continue
-        if kind == "ILR":
-            spacing = np.inf if m == 1 else (2.0 / 3.0) * r / (m * (m - 1))
-        else:
-            spacing = (2.0 / 3.0) * r / (m * (m + 1))
-        if spacing <= edge_distance_km:
-            continue
-        for reg in body.rings:
-            inner_a, outer_a = reg.edge_a_km
-            edge = outer_a if kind == "ILR" else inner_a
-            if abs(r - edge) > edge_distance_km:
-                continue
-            sigma_kg_km2 = reg.surface_density_g_cm2 * G_CM2_TO_KG_KM2
-            visc = reg.viscosity_cm2_s if viscosity_cm2_s is None else viscosity_cm2_s
-            flux_per_sigma = 3.0 * np.pi * visc * CM2_S_TO_KM2_S * n * r**2
-            if torque >= EDGE_VISCOUS_FRACTION * flux_per_sigma and sigma_kg_km2 > 0:
-                hits.append((i, edge, reg.name))
-                break
-    return hits
-
-
 # --- the public entry point -----------------------------------------------------------------
 
 def _check(body, rmin_km, rmax_km, max_order, max_m, sigma_g_cm2, viscosity_cm2_s, min_torque):
@@ -513,7 +463,7 @@ def _check(body, rmin_km, rmax_km, max_order, max_m, sigma_g_cm2, viscosity_cm2_
 
 def find_resonances(body, rmin_km=None, rmax_km=None, max_order=3, satellites=None,
                     min_torque=None, sigma_g_cm2=None, viscosity_cm2_s=None,
-                    max_m=DEFAULT_MAX_M, edge_distance_km=EDGE_DISTANCE_KM):
+                    max_m=DEFAULT_MAX_M):
     """All satellite resonances of a body in a radius range, sorted by radius.
 
     Parameters
@@ -532,8 +482,6 @@ def find_resonances(body, rmin_km=None, rmax_km=None, max_order=3, satellites=No
         Override the ring regions' surface density and viscosity everywhere.
     max_m : int
         Highest azimuthal wavenumber m.
-    edge_distance_km : float
-        Distance within which a strong first-order resonance holds a region edge.
 
     Returns
     -------
@@ -608,9 +556,6 @@ def find_resonances(body, rmin_km=None, rmax_km=None, max_order=3, satellites=No
     zones = wave_zones(r, r_dd, sig, visc, np.where(wave == "bending", nu, kappa), prop_sign)
     half = corotation_half_width_km(phi, r, n, r_dn2, kappa)
 
-    candidates = list(zip(kind_i, m_i, k_i, p_i, r, torque, n, strict=True))
-    edges = {i: (edge, name) for i, edge, name in mark_edges(
-        body, candidates, edge_distance_km, viscosity_cm2_s)}
     to_deg_day = 180.0 / np.pi * SECONDS_PER_DAY
     out = []
     for i in range(r.size):
@@ -625,18 +570,8 @@ def find_resonances(body, rmin_km=None, rmax_km=None, max_order=3, satellites=No
             surface_density_g_cm2=float(sig[i]), region=str(region[i]),
             strength_method=str(method[i]),
         )
-        if i in edges:
-            edge, name = edges[i]
-            reg = reg_by_name[name]
-            fields.update(wave="none", propagation="none", edge=True, region=name,
-                          surface_density_g_cm2=float(sigma_g_cm2 if sigma_g_cm2 is not None
-                                                      else reg.surface_density_g_cm2),
-                          zone_inner_km=float(min(r[i], edge) - EDGE_PAD_KM),
-                          zone_outer_km=float(max(r[i], edge) + EDGE_PAD_KM),
-                          first_wavelength_km=np.nan, damping_length_km=np.nan,
-                          shortest_wavelength_km=np.nan)
-        elif wave[i] == "none":
-            h = max(float(half[i]), 1.0)
+        if wave[i] == "none":
+            h = float(half[i])  # libration half-width (occplan.features keeps those >= 0.5 km)
             fields.update(propagation="none", zone_inner_km=float(r[i] - h),
                           zone_outer_km=float(r[i] + h), first_wavelength_km=np.nan,
                           damping_length_km=np.nan, shortest_wavelength_km=np.nan)

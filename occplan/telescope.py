@@ -37,6 +37,7 @@ class TelescopeProfile:
     dead_time_s: float
     band: str
     samples_per_wavelength: float
+    seeing_fwhm_arcsec: float = 1.5
     sources: dict = field(default_factory=dict, compare=False, hash=False)
     path: str = ""
 
@@ -65,7 +66,7 @@ class TelescopeProfile:
 
 _NUMERIC = ("aperture_m", "central_obstruction", "throughput", "read_noise_e", "dark_e_s",
             "pixel_scale_arcsec", "aperture_radius_arcsec", "cadence_s", "dead_time_s",
-            "samples_per_wavelength")
+            "samples_per_wavelength", "seeing_fwhm_arcsec")
 ALLOWED_KEYS = ("name",) + _NUMERIC + ("band", "source")
 
 
@@ -111,6 +112,8 @@ def _validate(p: TelescopeProfile) -> TelescopeProfile:
         bad("dead_time_s", f"must be shorter than the cadence ({p.cadence_s} s)")
     if p.samples_per_wavelength < 2:
         bad("samples_per_wavelength", "must be >= 2 (2 is the Nyquist bound)")
+    if p.seeing_fwhm_arcsec <= 0:
+        bad("seeing_fwhm_arcsec", "the seeing FWHM must be > 0 arcsec")
     if p.aperture_radius_arcsec < p.pixel_scale_arcsec / 2:
         bad("aperture_radius_arcsec", "the photometric aperture must cover at least one pixel")
     band(p.band)  # UnknownNameError listing the known bands

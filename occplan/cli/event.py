@@ -11,10 +11,10 @@ from ..tables import _plain, check_format, check_out, emit, render
 from . import common
 from . import options as o
 
-ZONE_COLUMNS = ["side", "time_utc", "satellite", "label", "kind", "wave", "m", "order",
-                "resonance_radius_km", "radial_velocity_km_s", "shortest_wavelength_km",
-                "required_interval_s", "achievable_resolution_km", "snr_per_element",
-                "resolvable", "behind_planet", "usable"]
+ZONE_COLUMNS = ["side", "time_utc", "name", "feature", "satellite", "label", "kind", "wave", "m",
+                "order", "resonance_radius_km", "radial_velocity_km_s", "feature_scale_km",
+                "required_interval_s", "achievable_resolution_km", "transmission",
+                "snr_per_element", "resolvable", "behind_planet", "usable"]
 
 
 def register(app: typer.Typer) -> None:
@@ -37,7 +37,7 @@ def register(app: typer.Typer) -> None:
         luminosity_class: o.LuminosityClass = "auto", min_snr: o.MinSnr = 3.0,
         fmt: o.Format = "table", out: o.Out = None, overwrite: o.Overwrite = False,
     ):
-        """Evaluate one candidate: crossings, zones on the chord, cadence, resolution, SNR, safety.
+        """Evaluate one candidate: crossings, features on the chord, cadence, resolution, SNR, safety.
 
         Example: occplan event --body saturn --star "23.9962 7.4700" --vmag 9.5 --kmag 6.0
         --lat -22 --lon 50 --height 1200 --start 2027-06-14T23:50Z --end 2027-06-15T01:20Z
