@@ -185,6 +185,9 @@ class Body:
             out[(a >= lo) & (a < hi)] = reg.name
         for gap in self.gaps:
             out[(a >= gap.inner_km) & (a < gap.outer_km)] = ""
+        for reg in self.ringlets_in_gaps:
+            lo, hi = reg.edge_a_km
+            out[(a >= lo) & (a < hi)] = reg.name
         return out
 
     def region_at(self, ring_radius_km):
@@ -195,7 +198,16 @@ class Body:
             out[(r >= reg.inner_km) & (r < reg.outer_km)] = reg.name
         for gap in self.gaps:
             out[(r >= gap.inner_km) & (r < gap.outer_km)] = gap.name
+        for reg in self.ringlets_in_gaps:
+            out[(r >= reg.inner_km) & (r < reg.outer_km)] = reg.name
         return out
+
+    @property
+    def ringlets_in_gaps(self) -> tuple:
+        """Ring regions that lie inside a gap (Saturn's Titan, Maxwell, Huygens ringlets)."""
+        return tuple(reg for reg in self.rings
+                     if any(g.inner_km <= reg.inner_km and reg.outer_km <= g.outer_km
+                            for g in self.gaps))
 
 
 def _need(table: dict, key: str, where: str):

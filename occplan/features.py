@@ -6,8 +6,9 @@ output of :func:`occplan.resonances.find_resonances` into:
 - **density waves** and **bending waves** that fit inside their ring segment (a region
   between gaps), launched only where the ring is massive enough to carry them;
 - **edges**: a first-order Lindblad resonance within ``edge_distance_km`` of a segment edge
-  (ILR at an outer edge, OLR at an inner edge) holds that edge and forces an m-lobed
-  distortion of it, whatever the assumed viscosity;
+  (ILR at an outer edge, OLR at an inner edge, or inside a narrow ring: a forced mode),
+  with a torque of at least ``min_edge_torque_dyn_cm``, holds that edge and forces an
+  m-lobed distortion of it, whatever the assumed viscosity;
 - **narrow rings**: a ring narrower than ``narrow_ring_max_width_km`` is one feature, with
   the resonances that hold its edges as members;
 - **corotation** features where the libration zone is at least ``corotation_min_width_km``
@@ -68,6 +69,7 @@ KM_TO_CM = 1e5
 FEATURE_KINDS = ("density wave", "bending wave", "edge", "narrow ring", "corotation",
                  "overlap region")
 SETTING_KEYS = ("min_amplitude", "narrow_ring_max_width_km", "edge_distance_km",
+                "min_edge_torque_dyn_cm",
                 "edge_width_km", "corotation_min_width_km", "min_optical_depth",
                 "overlap_min_members")
 
@@ -82,6 +84,7 @@ class FeatureSettings:
     min_amplitude: float
     narrow_ring_max_width_km: float
     edge_distance_km: float
+    min_edge_torque_dyn_cm: float
     edge_width_km: float
     corotation_min_width_km: float
     min_optical_depth: float
@@ -352,7 +355,7 @@ def _term(res) -> str:
     return f"{res.satellite} {res.label} {res.kind} (m={res.m}, k={res.k}, p={res.p})"
 
 
-def _edge_candidates(resonances, segs, settings):
+def _edge_candidates(resonances, segs, settings, group):
     """{index: (segment, edge radius, 'inner'|'outer')} of first-order Lindblad terms that
     hold a segment edge (module docstring)."""
     hits = {}
@@ -369,13 +372,26 @@ def _edge_candidates(resonances, segs, settings):
             continue
         best = None
         for s in segs:
-            edge, which = (s.outer_km, "outer") if res.kind == "ILR" else (s.inner_km, "inner")
-            d = abs(r - edge)
-            if d <= d_max and (best is None or d < best[0]):
-                best = (d, s, edge, which)
+            if res.torque_per_sigma * s.surface_density_g_cm2 < settings.min_edge_torque_dyn_cm:
+                continue
+            options = [(s.outer_km, "outer")] if res.kind == "ILR" else [(s.inner_km, "inner")]
+            if s.narrow and s.inner_km <= r <= s.outer_km:  # a forced mode inside a narrow ring
+                options.append((r, "inner" if r - s.inner_km < s.outer_km - r else "outer"))
+            for edge, which in options:
+                d = abs(r - edge)
+                if d <= d_max and (best is None or d < best[0]):
+                    best = (d, s, edge, which)
         if best is not None:
-            hits[i] = best[1:]
-    return hits
+            hits[i] = best
+    # one holder per edge and satellite group: the closest (neighbouring m of one moon can
+    # both fall within the tolerance of a narrow ring's edge)
+    closest = {}
+    for i, (d, s, edge, which) in hits.items():
+        key = (id(s), which, group.get(resonances[i].satellite, resonances[i].satellite))
+        if key not in closest or d < closest[key][0]:
+            closest[key] = (d, i)
+    keep = {i for _, i in closest.values()}
+    return {i: hits[i][1:] for i in keep}
 
 
 def derive_features(body, resonances, settings: FeatureSettings | None = None) -> list[Feature]:
@@ -397,7 +413,7 @@ def derive_features(body, resonances, settings: FeatureSettings | None = None) -
     settings = settings or load_settings()
     segs = segments(body, settings)
     group = _groups(body)
-    edges = _edge_candidates(resonances, segs, settings)
+    edges = _edge_candidates(resonances, segs, settings, group)
 
     # 1. single terms -> candidate features (key: what merges them)
     cands = []  # (key, Feature, per-sigma torque) for merging
