@@ -317,14 +317,15 @@ def zone_crossings(track: Track, features, *, cadence_s: float, fresnel_km: floa
         Sampling interval of the camera (s).
     fresnel_km : float
         Fresnel scale in the sky plane at the distance ``track.meta["distance_km"]`` (km);
-        each zone scales it to the distance of its ring point along the ray (sqrt law).
+        each crossing scales it to the distance of its ring point along the ray (sqrt law).
     stellar_diameter_km : float or None
-        The star's diameter projected at that same distance (km), scaled per zone linearly;
-        None when it could not be evaluated: that limit is then left out, and the reasons
-        say so.
+        The star's diameter projected at that same distance (km), scaled per crossing
+        linearly; None when it could not be evaluated: that limit is then left out, and the
+        reasons say so.
     snr_function : callable, optional
-        ``snr_function(feature, element_km, radial_speed_km_s, when_s)`` ->
-        (SNR of the feature's signal per element, slant transmission, contrast).
+        ``snr_function(features, element_km, radial_speed_km_s, when_s)`` with arrays (one
+        entry per crossing) -> arrays (SNR of each feature's signal per element, slant
+        transmission, contrast).
     hidden : list of (start_s, end_s), optional
         Planet-hidden intervals (default: :func:`hidden_intervals`).
     """
@@ -334,89 +335,108 @@ def zone_crossings(track: Track, features, *, cadence_s: float, fresnel_km: floa
         raise InputError(f"{samples_per_wavelength} samples per wavelength is below the Nyquist "
                          f"bound of {NYQUIST_SAMPLES_PER_WAVELENGTH}")
     hidden = hidden_intervals(track) if hidden is None else hidden
-    out = []
     interp = track.interp
     features = list(features)
     radii = np.array([[f.zone_inner_km, f.zone_outer_km, f.resonance_radius_km] for f in features]
                      ).reshape(-1)
     crossing = crossing_times_many(track, radii) if radii.size else []
+    # 1. which features each side crosses, and when
+    found = []  # (feature, side, start, end, t_res or nan)
     for side, a, b in sides(track):
         r_side = interp.radius(np.array([a, b]))
         for k, feat in enumerate(features):
             win = _radius_window(track, a, b, feat.zone_inner_km, feat.zone_outer_km,
                                  crossing[3 * k], crossing[3 * k + 1], r_side)
-            if win is None:
-                continue
-            start, end = win
-            if end - start < 1e-3:
-                continue  # the chord only touches the zone's edge at its turning point
+            if win is None or win[1] - win[0] < 1e-3:
+                continue  # not crossed, or only touched at the chord's turning point
             t_res = [t for t in crossing[3 * k + 2] if a <= t <= b]
-            when = t_res[0] if t_res else 0.5 * (start + end)
-            probe = np.array([start, when, end])
-            speeds = np.abs(interp.radial_velocity(probe))
-            v_here = float(interp.radial_velocity(np.array([when]))[0])
-            vmax = float(speeds.max())
-            grad = float(radial_projection_factor(track, when)[0])
-            scale = ray_length_ratio(track, when)
-            fresnel_ring = fresnel_km * math.sqrt(scale) * grad
-            lam = feature_scale_km(feat, fresnel_ring)
-            dt_req = lam / (samples_per_wavelength * vmax) if vmax > 0 else float("inf")
-            terms = {"cadence": vmax * cadence_s, "Fresnel scale": fresnel_ring}
-            reasons = []
-            if stellar_diameter_km is not None:
-                terms["stellar diameter"] = stellar_diameter_km * scale * grad
-            else:
-                reasons.append("stellar diameter not evaluated (needs the star's colour)")
-            resolution = math.sqrt(sum(x * x for x in terms.values()))
-            limit = max(terms, key=terms.get)
-            ok = resolution < lam / 2.0
-            what = "shortest wavelength" if feat.feature in ("density wave", "bending wave",
-                                                            "overlap region") else "feature scale"
-            if not ok:
-                reasons.insert(0, f"achievable {resolution:.2f} km >= half the {what} "
-                                  f"({lam / 2:.2f} km), limited by the {limit}")
-            if cadence_s > dt_req:
-                ok = False
-                reasons.append(f"cadence {cadence_s:g} s is slower than the {dt_req:.3g} s "
-                               f"needed for {samples_per_wavelength:g} samples per {what}")
-            snr = transmission = contrast = float("nan")
-            if feat.weight <= 0:
-                reasons.append("corotation zone: listed, not scored")
-            elif snr_function is not None:
-                snr, transmission, contrast = snr_function(feat, max(resolution, lam / 2.0), vmax, when)
-                if np.isfinite(snr) and snr < min_snr:
-                    ok = False
-                    reasons.append(f"feature SNR per resolution element {snr:.1f} < {min_snr:g} "
-                                   f"(ring transmission {transmission:.3g}, contrast {contrast:.3g})")
-                elif not np.isfinite(snr):
-                    ok = False
-                    reasons.append("SNR undefined (the planet is below the horizon then, or "
-                                   "the background is unknown)")
-            else:
-                reasons.append("SNR not evaluated (needs the star's magnitude)")
-            extent, _ = resolved_extent(feat, resolution, samples_per_wavelength * vmax * cadence_s,
-                                        scale_km=lam)
-            r_ends = interp.radius(np.array([start, end]))
-            fraction, whole = _observed_fraction(feat, extent, float(r_ends.min()),
-                                                 float(r_ends.max()))
-            if not whole:
-                ok = False
-                reasons.append("only part of the zone crossed on this side")
-            behind = any(h0 <= when <= h1 for h0, h1 in hidden)
-            u_node, u_perp = interp.in_plane(np.array([when]))[0][:, 0]
-            lon = float(np.degrees(np.arctan2(u_perp, u_node)) % 360.0)
-            out.append(ZoneCrossing(
-                feature=feat, side=side, time_s=t_res[0] if t_res else float("nan"),
-                start_s=start, end_s=end, radial_velocity_km_s=v_here,
-                max_radial_speed_km_s=vmax, ring_longitude_deg=lon, behind_planet=behind,
-                feature_scale_km=lam, required_interval_s=dt_req,
-                achievable_resolution_km=resolution, limit=limit,
-                resolvable=bool(ok and not behind and feat.weight > 0),
-                reasons=reasons + (["behind the planet"] if behind else []),
-                partial=not whole, snr_per_element=snr, transmission=transmission,
-                contrast=contrast,
-                resolved_extent_km=0.0 if behind else extent,
-                resolved_fraction=0.0 if behind else fraction,
-            ))
+            found.append((feat, side, win[0], win[1], t_res[0] if t_res else float("nan")))
+    if not found:
+        return []
+    # 2. the geometry of every crossing at once
+    start = np.array([x[2] for x in found])
+    end = np.array([x[3] for x in found])
+    t_res = np.array([x[4] for x in found])
+    when = np.where(np.isfinite(t_res), t_res, 0.5 * (start + end))
+    n = len(found)
+    speeds = np.abs(interp.radial_velocity(np.concatenate([start, when, end]))).reshape(3, n)
+    vmax = speeds.max(axis=0)
+    v_here = interp.radial_velocity(when)
+    grad = radial_projection_factor(track, when)
+    vals = interp(when)
+    scale = vals["ray_length"] / track.meta["distance_km"]
+    u = interp.in_plane(when)[0]
+    lon = np.degrees(np.arctan2(u[1], u[0])) % 360.0
+    r_ends = interp.radius(np.concatenate([start, end])).reshape(2, n)
+    fresnel_ring = fresnel_km * np.sqrt(scale) * grad
+    lam = np.array([feature_scale_km(x[0], fr) for x, fr in zip(found, fresnel_ring)])
+    with np.errstate(divide="ignore"):
+        dt_req = np.where(vmax > 0, lam / (samples_per_wavelength * np.where(vmax > 0, vmax, 1.0)),
+                          np.inf)
+    terms = {"cadence": vmax * cadence_s, "Fresnel scale": fresnel_ring}
+    if stellar_diameter_km is not None:
+        terms["stellar diameter"] = stellar_diameter_km * scale * grad
+    resolution = np.sqrt(sum(t * t for t in terms.values()))
+    names = list(terms)
+    limits = [names[i] for i in np.argmax(np.vstack(list(terms.values())), axis=0)]
+    element = np.maximum(resolution, lam / 2.0)
+    snr = np.full(n, np.nan)
+    transmission = np.full(n, np.nan)
+    contrast = np.full(n, np.nan)
+    scored = np.array([x[0].weight > 0 for x in found])
+    if snr_function is not None and np.any(scored):
+        feats = [x[0] for x, ok in zip(found, scored) if ok]
+        s_, t_, c_ = snr_function(feats, element[scored], vmax[scored], when[scored])
+        snr[scored], transmission[scored], contrast[scored] = s_, t_, c_
+    # 3. one record per crossing
+    out = []
+    for i, (feat, side, _, _, _) in enumerate(found):
+        reasons = []
+        if stellar_diameter_km is None:
+            reasons.append("stellar diameter not evaluated (needs the star's colour)")
+        ok = bool(resolution[i] < lam[i] / 2.0)
+        what = "shortest wavelength" if feat.feature in ("density wave", "bending wave",
+                                                        "overlap region") else "feature scale"
+        if not ok:
+            reasons.insert(0, f"achievable {resolution[i]:.2f} km >= half the {what} "
+                              f"({lam[i] / 2:.2f} km), limited by the {limits[i]}")
+        if cadence_s > dt_req[i]:
+            ok = False
+            reasons.append(f"cadence {cadence_s:g} s is slower than the {dt_req[i]:.3g} s "
+                           f"needed for {samples_per_wavelength:g} samples per {what}")
+        if not scored[i]:
+            reasons.append("corotation zone: listed, not scored")
+        elif snr_function is None:
+            reasons.append("SNR not evaluated (needs the star's magnitude)")
+        elif not np.isfinite(snr[i]):
+            ok = False
+            reasons.append("SNR undefined (the planet is below the horizon then, or the "
+                           "background is unknown)")
+        elif snr[i] < min_snr:
+            ok = False
+            reasons.append(f"feature SNR per resolution element {snr[i]:.1f} < {min_snr:g} "
+                           f"(ring transmission {transmission[i]:.3g}, contrast {contrast[i]:.3g})")
+        extent, _ = resolved_extent(feat, resolution[i],
+                                    samples_per_wavelength * vmax[i] * cadence_s, scale_km=lam[i])
+        fraction, whole = _observed_fraction(feat, extent, float(r_ends[:, i].min()),
+                                             float(r_ends[:, i].max()))
+        if not whole:
+            ok = False
+            reasons.append("only part of the zone crossed on this side")
+        behind = any(h0 <= when[i] <= h1 for h0, h1 in hidden)
+        out.append(ZoneCrossing(
+            feature=feat, side=side, time_s=float(t_res[i]), start_s=float(start[i]),
+            end_s=float(end[i]), radial_velocity_km_s=float(v_here[i]),
+            max_radial_speed_km_s=float(vmax[i]), ring_longitude_deg=float(lon[i]),
+            behind_planet=behind, feature_scale_km=float(lam[i]),
+            required_interval_s=float(dt_req[i]),
+            achievable_resolution_km=float(resolution[i]), limit=limits[i],
+            resolvable=bool(ok and not behind and scored[i]),
+            reasons=reasons + (["behind the planet"] if behind else []),
+            partial=not whole, snr_per_element=float(snr[i]),
+            transmission=float(transmission[i]), contrast=float(contrast[i]),
+            resolved_extent_km=0.0 if behind else extent,
+            resolved_fraction=0.0 if behind else fraction,
+        ))
     out.sort(key=lambda z: (z.start_s, z.feature.resonance_radius_km))
     return out

@@ -21,13 +21,14 @@ from .errors import OutputExistsError
 
 DEMO_PACKAGE = "occplan.ephem_demo"
 RANKED_COLUMNS = ["rank", "star_id", "body", "site", "closest_approach_utc", "min_ring_radius_km",
-                  "zones_crossed", "zones_resolvable", "zones_hidden", "zones_unusable", "score",
-                  "score_ingress", "score_egress", "strength_sum", "resolvable_factor_sum",
-                  "snr_factor_sum", "usable_factor_sum", "best_zone", "opening_angle_deg",
-                  "vmag", "kmag", "telescope", "reasons"]
-FACTOR_COLUMNS = [("zones_resolvable", "resolvable"), ("strength_sum", "strength sum"),
-                  ("resolvable_factor_sum", "resolvable sum"), ("snr_factor_sum", "SNR sum"),
-                  ("usable_factor_sum", "usable sum"), ("best_zone", "best zone")]
+                  "score", "potential_score", "observability", "score_ingress", "score_egress",
+                  "features_crossed", "feature_crossings", "features_resolvable",
+                  "features_both_sides", "crossings_hidden", "crossings_unusable",
+                  "best_feature", "deciding_features", "opening_angle_deg", "vmag", "kmag",
+                  "telescope", "reasons"]
+FACTOR_COLUMNS = [("features_crossed", "features"), ("features_resolvable", "resolvable"),
+                  ("features_both_sides", "both sides"), ("score_ingress", "ingress"),
+                  ("score_egress", "egress"), ("deciding_features", "deciding features")]
 
 
 @dataclass
@@ -54,26 +55,27 @@ def _prepare(out: Path, overwrite: bool) -> None:
 
 
 def _why_first(rows: list[dict]) -> str:
+    """The report's "why it ranks first", from the features that decided the score."""
     if not rows or not rows[0].get("score"):
         return "no event scored above zero in this season."
     a = rows[0]
-    text = (f"star {a['star_id']} from {a['site']} scores {a['score']:.2f}: its chord crosses "
-            f"{a['zones_crossed']} zone crossings (ingress and egress counted apart), "
-            f"{a['zones_resolvable']} of them resolvable with that station's camera, "
-            f"{a.get('zones_hidden') or 0} behind the planet and "
-            f"{a.get('zones_unusable') or 0} at unusable times; its best zone is "
-            f"{a.get('best_zone') or '-'}. Its resolvable-factor sum "
-            f"{(a.get('resolvable_factor_sum') or 0):.2f} counts each fully resolved wave train as 1 "
-            "and a partly resolved one by the fraction of its train resolved near the resonance.")
+    text = (f"star {a['star_id']} from {a['site']} scores {a['score']:.2f}: its chord records "
+            f"{a.get('features_crossed') or 0} ring features, {a.get('features_resolvable') or 0} "
+            f"of them resolved with that station's camera and "
+            f"{a.get('features_both_sides') or 0} on both sides of the planet (ingress "
+            f"{(a.get('score_ingress') or 0):.2f}, egress {(a.get('score_egress') or 0):.2f}). "
+            f"The features that decide it: {a.get('deciding_features') or '-'}. Each feature "
+            "counts once, by its observable amplitude times the part of it resolved and its "
+            "signal to noise through the ring's opacity; a second crossing at another ring "
+            "longitude adds by how far apart it samples the feature.")
     if len(rows) > 1:
         b = rows[1]
         text += (f" The next event (star {b['star_id']} from {b['site']}) scores "
-                 f"{(b.get('score') or 0):.2f}: {b.get('zones_resolvable') or 0} resolvable of "
-                 f"{b.get('zones_crossed') or 0}, resolvable-factor sum "
-                 f"{(b.get('resolvable_factor_sum') or 0):.2f} against "
-                 f"{(a.get('resolvable_factor_sum') or 0):.2f}, usable-factor sum "
-                 f"{(b.get('usable_factor_sum') or 0):.2f} against "
-                 f"{(a.get('usable_factor_sum') or 0):.2f}.")
+                 f"{(b.get('score') or 0):.2f}: {b.get('features_resolvable') or 0} features "
+                 f"resolved against {a.get('features_resolvable') or 0}, "
+                 f"{b.get('features_both_sides') or 0} on both sides against "
+                 f"{a.get('features_both_sides') or 0}; its deciding features: "
+                 f"{b.get('deciding_features') or '-'}.")
     if a.get("reasons"):
         text += f" Scorer's note on the winner: {a['reasons']}"
     return text
@@ -125,7 +127,7 @@ def run_demo(out_dir: str | Path = "occplan-demo-output", overwrite: bool = Fals
         log(f"[{name}] searching {len(table)} catalog stars, {window[0]} .. {window[1]}")
         found = find_events(body, table, window, sites, progress=progress)
         log(f"[{name}] {len(found.candidates)} geocentric candidates, {len(found.events)} "
-            "station events crossing the rings; evaluating zones")
+            "station events crossing the rings; evaluating their features")
         score_events(found, settings=settings, weights=weights, progress=progress)
         rows = rank_rows(event_rows(found))
         for r in rows:
@@ -181,8 +183,8 @@ def run_demo(out_dir: str | Path = "occplan-demo-output", overwrite: bool = Fals
                 "chord_table": f"events/{stem}_chord.ecsv", "json": f"events/{stem}.json",
             })
             log(f"[{name}] #{i} star {row['star_id']} from {row['site']}: score "
-                f"{row['score']:.2f}, {row['zones_resolvable']} of {row['zones_crossed']} zone "
-                "crossings resolvable")
+                f"{row['score']:.2f}, {row['features_resolvable']} of {row['features_crossed']} "
+                "features resolved")
         bodies_out.append({"body": body.name, "candidates": len(rows),
                            "ranked": [r for r in rows[:12]], "factor_columns": FACTOR_COLUMNS,
                            "why_first": _why_first(rows), "season_chart": chart_rel,

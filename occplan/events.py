@@ -175,10 +175,12 @@ def evaluate_event(body, star, observer: Observer, window, *, telescope=None, ke
                              track.meta.get("sun_opening_angle_deg"))
     photometry["background"] = sky.describe()
 
+    airmass = np.asarray(cond.airmass, dtype=float) if cond.applicable else None
+
     def airmass_at(when_s):
-        if not cond.applicable:
+        if airmass is None:
             return 1.0
-        am = np.interp(when_s, times, np.asarray(cond.airmass, dtype=float))
+        am = np.interp(when_s, times, airmass)
         return float(am) if np.isfinite(am) and am >= 1 else float("nan")
 
     snr_function = None
@@ -186,24 +188,27 @@ def evaluate_event(body, star, observer: Observer, window, *, telescope=None, ke
         star_rate = ph.star_photon_rate(star_mag, band.name, tel.aperture_m, tel.throughput,
                                         tel.central_obstruction)
 
-        def snr_function(feat, element_km, speed, when_s):
-            """SNR of the feature's signal per radial element (feature_snr's formula)."""
-            transmission, contrast = ph.feature_contrast(feat.feature, feat.amplitude,
-                                                         feat.optical_depth, b_star)
+        def snr_function(feats, element_km, speed, when_s):
+            """SNR of each feature's signal per radial element (photometry.feature_snr)."""
+            tc = np.array([ph.feature_contrast(f.feature, f.amplitude, f.optical_depth, b_star)
+                           for f in feats]).reshape(-1, 2)
+            transmission, contrast = tc[:, 0], tc[:, 1]
             if not sky.evaluated:
-                return float("nan"), transmission, contrast
-            f = float(np.interp(when_s, track.tdb_s, track.sky_f_km))
-            g = float(np.interp(when_s, track.tdb_s, track.sky_g_km))
-            bg = sky.rates(f, g)["rate_photons_s"]
-            am = airmass_at(when_s)
-            if not np.isfinite(am):
-                return float("nan"), transmission, contrast
-            sig = ph.scintillation_sigma(tel.aperture_m, am, height_m, tel.exposure_s)
-            snr = ph.feature_snr(star_rate, transmission, contrast, bg, tel.exposure_s,
-                                 read_noise_e=tel.read_noise_e, n_pixels=tel.n_pixels,
-                                 scintillation_sigma=sig, dark_e_s=tel.dark_e_s,
-                                 element_km=element_km, radial_velocity_km_s=speed,
-                                 sampling_interval_s=tel.cadence_s)
+                return np.full(len(feats), np.nan), transmission, contrast
+            f = np.interp(when_s, track.tdb_s, track.sky_f_km)
+            g = np.interp(when_s, track.tdb_s, track.sky_g_km)
+            bg = np.sum(sky.rates_many(f, g), axis=0)
+            am = np.array([airmass_at(t) for t in when_s])
+            good = np.isfinite(am)
+            snr = np.full(len(feats), np.nan)
+            if np.any(good):
+                sig = ph.scintillation_sigma(tel.aperture_m, am[good], height_m, tel.exposure_s)
+                snr[good] = ph.feature_snr(star_rate, transmission[good], contrast[good], bg[good],
+                                           tel.exposure_s, read_noise_e=tel.read_noise_e,
+                                           n_pixels=tel.n_pixels, scintillation_sigma=sig,
+                                           dark_e_s=tel.dark_e_s, element_km=element_km[good],
+                                           radial_velocity_km_s=speed[good],
+                                           sampling_interval_s=tel.cadence_s)
             return snr, transmission, contrast
 
         photometry.update({"star_rate_photons_s": float(star_rate),

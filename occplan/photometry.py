@@ -749,8 +749,9 @@ FEATURE_SNR_FORMULA = (
 
 def feature_snr(star_rate_e_s, transmission, contrast, background_rate_e_s, exposure_s, *,
                 read_noise_e, n_pixels, scintillation_sigma, dark_e_s, element_km,
-                radial_velocity_km_s, sampling_interval_s) -> float:
-    """Signal to noise of a ring feature's signal per radial resolution element.
+                radial_velocity_km_s, sampling_interval_s):
+    """Signal to noise of a ring feature's signal per radial resolution element (scalars or
+    arrays; nan where the contrast is nan).
 
     Parameters
     ----------
@@ -772,15 +773,16 @@ def feature_snr(star_rate_e_s, transmission, contrast, background_rate_e_s, expo
     shot noise and scintillation scale with T) plus the background, read and dark noise: the
     usual CCD budget (common practice).  The signal is the feature's swing, c S per sample.
     """
-    if not np.isfinite(contrast):
-        return float("nan")
-    noise = snr_per_sample(float(star_rate_e_s) * float(transmission), background_rate_e_s,
-                           exposure_s, read_noise_e=read_noise_e, n_pixels=n_pixels,
-                           scintillation_sigma=scintillation_sigma, dark_e_s=dark_e_s,
-                           scintillate_background=False)
-    signal = float(contrast) * float(star_rate_e_s) * noise.exposure_s
-    total = float(noise.total_noise_e)
-    per_sample = signal / total if total > 0 else float("inf")
-    v = abs(float(radial_velocity_km_s))
-    n = float(element_km) / (v * float(sampling_interval_s)) if v > 0 else 1.0
-    return per_sample * math.sqrt(max(n, 1.0))
+    c = np.asarray(contrast, dtype=float)
+    noise = snr_per_sample(np.asarray(star_rate_e_s, dtype=float) * np.asarray(transmission, dtype=float),
+                           background_rate_e_s, exposure_s, read_noise_e=read_noise_e,
+                           n_pixels=n_pixels, scintillation_sigma=scintillation_sigma,
+                           dark_e_s=dark_e_s, scintillate_background=False)
+    signal = c * np.asarray(star_rate_e_s, dtype=float) * noise.exposure_s
+    total = np.asarray(noise.total_noise_e, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        per_sample = np.where(total > 0, signal / np.where(total > 0, total, 1.0), np.inf)
+        v = np.abs(np.asarray(radial_velocity_km_s, dtype=float))
+        n = np.where(v > 0, np.asarray(element_km, dtype=float)
+                     / (np.where(v > 0, v, 1.0) * float(sampling_interval_s)), 1.0)
+    return _scalar(per_sample * np.sqrt(np.maximum(n, 1.0)))

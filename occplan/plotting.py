@@ -1,4 +1,4 @@
-"""Figures of one candidate event: sky-plane view, ring radius versus time, zone coverage.
+"""Figures of one candidate event: sky-plane view, ring radius versus time, feature coverage.
 
 Each plot function takes an :class:`occplan.events.EventReport` and ``ax=None`` and returns
 the Axes it drew on; without ``ax`` it makes its own :class:`matplotlib.figure.Figure`
@@ -11,9 +11,9 @@ The rings are the body file's regions as ellipses r x r |sin B*| (``occplan.cove
 half of each ring behind the planet's sky plane is hidden where it lies on the disk and the
 near half is drawn over the disk.  Times are labelled in UTC; inside they stay TDB seconds.
 
-Zone colours (:func:`zone_status`): green when the cadence, the Fresnel scale, the star's
-diameter and the signal to noise resolve the zone; orange when one of them does not; grey
-when the planet hides the star there or the site cannot observe it then.
+Feature colours (:func:`zone_status`): green when the cadence, the Fresnel scale, the star's
+diameter and the feature's own signal to noise resolve it; orange when one of them does not;
+grey when the planet hides the star there or the site cannot observe it then.
 """
 
 from __future__ import annotations
@@ -88,15 +88,15 @@ def _new_axes(figsize):
     return _new_figure(figsize).add_subplot()
 
 
-def resonance_strength(res) -> float:
-    """Torque of a resonance in its region: torque per unit sigma x the region's sigma."""
-    s = res.surface_density_g_cm2
-    return float(res.torque_per_sigma * s) if np.isfinite(s) and s > 0 else 0.0
+def feature_rank_key(feat):
+    """Edges and narrow rings first, then by weight (observable amplitude), then torque."""
+    return (feat.feature not in ("edge", "narrow ring"), -feat.weight, -feat.torque_dyn_cm,
+            feat.resonance_radius_km)
 
 
-def zone_name(res) -> str:
-    """'Janus 6:5 ILR' (with 'edge' for a resonance-held ring edge)."""
-    return f"{res.satellite} {res.label} {res.kind}" + (" edge" if res.edge else "")
+def zone_name(feat) -> str:
+    """The feature's unique name ('Janus/Epimetheus 6:5 density wave', 'epsilon ring')."""
+    return feat.name
 
 
 def zone_status(zone) -> str:
@@ -108,7 +108,7 @@ def zone_status(zone) -> str:
 
 
 def _ranked_resonances(report, limit: int | None, per_satellite: float = 1.0):
-    """Resonances crossed by the chord: resonance-held edges first, then by torque.
+    """Scored features crossed by the chord: edges and narrow rings first, then by weight.
 
     ``per_satellite`` caps the share of one satellite in the first ``limit`` (a close series
     such as Prometheus' outer-A-ring waves would otherwise crowd out every other satellite);
@@ -116,9 +116,9 @@ def _ranked_resonances(report, limit: int | None, per_satellite: float = 1.0):
     """
     seen = {}
     for z in report.zones:
-        seen.setdefault(id(z.resonance), z.resonance)
-    ranked = sorted(seen.values(), key=lambda r: (not r.edge, -resonance_strength(r),
-                                                  r.resonance_radius_km))
+        if z.feature.weight > 0:
+            seen.setdefault(id(z.feature), z.feature)
+    ranked = sorted(seen.values(), key=feature_rank_key)
     if limit is None:
         return ranked
     limit = max(int(limit), 0)
@@ -422,16 +422,16 @@ def _aspect_fix(ax) -> float:
 
 
 def radius_time(report, ax=None, max_labels: int = DEFAULT_MAX_LABELS):
-    """Ring radius versus UTC with ring regions, resonance zones and planet-hidden time.
+    """Ring radius versus UTC with ring regions, ring features and planet-hidden time.
 
     Parameters
     ----------
     report : occplan.events.EventReport
     ax : matplotlib Axes, optional
     max_labels : int
-        How many resonances to name (resonance-held edges first, then by torque = torque
-        per unit surface density x the region's surface density); every zone crossed gets
-        a marker coloured by :func:`zone_status`.
+        How many features to name (edges and narrow rings first, then by weight, the
+        observable amplitude); every scored feature crossed gets a marker coloured by
+        :func:`zone_status`.
 
     Returns
     -------
@@ -481,7 +481,7 @@ def radius_time(report, ax=None, max_labels: int = DEFAULT_MAX_LABELS):
     if report.hidden:
         handles.append(Patch(facecolor=HIDDEN_COLOUR, hatch="//", label="planet hides the star"))
     handles += [Line2D([], [], color=c, marker="_", ls="none", markersize=10, mew=2.5,
-                       label=f"zone: {STATUS_LABELS[k]}") for k, c in STATUS_COLOURS.items()]
+                       label=f"feature: {STATUS_LABELS[k]}") for k, c in STATUS_COLOURS.items()]
     ax.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, -0.13), fontsize=7,
               ncol=3, frameon=False)
     if not tr.passes:
@@ -495,10 +495,12 @@ def _zone_marks(ax, report, max_labels):
     ca = report.track.closest_approach_s
     by_res: dict = {}
     for z in report.zones:
-        ax.plot(_to_dates(report, _zone_time(z)), z.resonance.resonance_radius_km, marker="_",
+        if z.feature.weight <= 0:
+            continue  # corotation zones are listed in the tables, not drawn
+        ax.plot(_to_dates(report, _zone_time(z)), z.feature.resonance_radius_km, marker="_",
                 markersize=10, mew=2.5, ls="none", color=STATUS_COLOURS[zone_status(z)], zorder=4,
-                gid=f"zone:{z.side}:{zone_name(z.resonance)}")
-        by_res.setdefault(id(z.resonance), []).append(z)
+                gid=f"zone:{z.side}:{zone_name(z.feature)}")
+        by_res.setdefault(id(z.feature), []).append(z)
     chosen = _ranked_resonances(report, max_labels, per_satellite=0.3)
     if not chosen:
         return
@@ -540,12 +542,12 @@ def _spread(values, ax, min_gap_fraction: float):
 
 
 def coverage_chart(report, ax=None, max_zones: int = DEFAULT_MAX_ZONES):
-    """Which resonance zones each crossing (ingress, egress) covers, and how well.
+    """Which ring features each crossing (ingress, egress) covers, and how well.
 
-    Rows are the zones the chord crosses (resonance-held edges first, then the strongest by
-    torque; at most ``max_zones``), ordered by radius with the outermost on top; columns the
+    Rows are the scored features the chord crosses (edges and narrow rings first, then by
+    weight; at most ``max_zones``), ordered by radius with the outermost on top; columns the
     two radial profiles.  Each cell is coloured by :func:`zone_status` and gives the sampling
-    interval the zone needs, dt_req = lambda_min / (N |dr/dt|), and the achievable radial
+    interval the feature needs, dt_req = L / (N |dr/dt|), and the achievable radial
     resolution.
 
     Returns
@@ -557,7 +559,7 @@ def coverage_chart(report, ax=None, max_zones: int = DEFAULT_MAX_ZONES):
     tr = report.track
     side_names = [s for s, _, _ in sides(tr)] or ["ingress", "egress"]
     chosen.sort(key=lambda res: res.resonance_radius_km)
-    cell = {(id(z.resonance), z.side): z for z in report.zones}
+    cell = {(id(z.feature), z.side): z for z in report.zones}
     for row, res in enumerate(chosen):
         for col, side in enumerate(side_names):
             z = cell.get((id(res), side))
@@ -585,13 +587,13 @@ def coverage_chart(report, ax=None, max_zones: int = DEFAULT_MAX_ZONES):
     ax.tick_params(length=0)
     for spine in ax.spines.values():
         spine.set_visible(False)
-    ax.set_ylabel("resonance zone and resonance radius (km)", fontsize=8)
-    total = len({id(z.resonance) for z in report.zones})
-    shown = f"{n} of {total} zones crossed" if total > n else f"{total} zones crossed"
+    ax.set_ylabel("feature and its radius (km)", fontsize=8)
+    total = len({id(z.feature) for z in report.zones if z.feature.weight > 0})
+    shown = f"{n} of {total} features crossed" if total > n else f"{total} features crossed"
     res = report.resolution
     tel = report.telescope
     sd = res.get("stellar_diameter_km")
-    ax.set_title(f"Zone coverage per crossing ({shown})", fontsize=10, pad=22)
+    ax.set_title(f"Feature coverage per crossing ({shown})", fontsize=10, pad=22)
     ax.set_xlabel(f"cell: required sampling interval dt_req and achievable resolution; camera "
                   f"{tel.cadence_s:g} s, {res['band']} band, Fresnel {res['fresnel_km']:.2f} km, "
                   + (f"star {sd:.2f} km" if sd is not None else "star diameter not evaluated"),
@@ -602,7 +604,7 @@ def coverage_chart(report, ax=None, max_zones: int = DEFAULT_MAX_ZONES):
     ax.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, -0.06 if n else 0.5),
               fontsize=7, ncol=2, frameon=False)
     if not n:
-        ax.text(0.5, 0.6, "the chord crosses no resonance zone", transform=ax.transAxes,
+        ax.text(0.5, 0.6, "the chord crosses no ring feature", transform=ax.transAxes,
                 ha="center", fontsize=9)
     return ax
 
@@ -627,8 +629,8 @@ def _cell_text(z, status) -> str:
         why = z.reasons[0]
         if why.startswith("achievable"):
             why = "limited by " + why.split("limited by the ")[-1]
-        elif why.startswith("SNR"):
-            why = why.split(" < ")[0].replace("SNR per resolution element", "SNR")
+        elif why.startswith("feature SNR") or why.startswith("SNR"):
+            why = why.split(" < ")[0].replace("feature SNR per resolution element", "feature SNR")
         return f"{txt}\n{why}"
     return txt
 

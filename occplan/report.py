@@ -48,8 +48,7 @@ def _html_table(rows: list[dict], columns: list[tuple[str, str]]) -> str:
 
 RANK_COLUMNS = [("rank", "#"), ("star_id", "star"), ("site", "site"),
                 ("closest_approach_utc", "closest approach (UTC)"),
-                ("min_ring_radius_km", "min radius km"), ("zones_crossed", "zones"),
-                ("score", "score")]
+                ("min_ring_radius_km", "min radius km"), ("score", "score")]
 
 
 def write_report(out_dir: str | Path, campaign: dict, bodies: list[dict]) -> tuple[Path, Path]:
@@ -62,7 +61,7 @@ def write_report(out_dir: str | Path, campaign: dict, bodies: list[dict]) -> tup
         lon_deg, height_m, telescope), ``catalog`` (path), ``stars`` (count), ``notes``.
     bodies : list of dict
         Per body: ``body``, ``candidates`` (count), ``ranked`` (rows with rank, star_id, site,
-        closest_approach_utc, min_ring_radius_km, zones_crossed, score, and the factors),
+        closest_approach_utc, min_ring_radius_km, score, and the factors),
         ``factor_columns`` (list of (key, title)), ``why_first`` (text), ``season_chart``
         (path relative to out_dir), ``events`` (list of dicts: ``title``, ``summary`` text,
         ``figure`` path, ``chord_table`` path, ``json`` path).
@@ -71,19 +70,24 @@ def write_report(out_dir: str | Path, campaign: dict, bodies: list[dict]) -> tup
     md = [f"# {campaign['name']}", "",
           f"Season {campaign['start_utc']} to {campaign['end_utc']}; catalog "
           f"`{campaign['catalog']}` ({campaign['stars']} stars); made by occplan "
-          f"{campaign.get('version', '')}, offline, from DE421.", "",
+          f"{campaign.get('version', '')}, offline, from the JPL ephemeris named in each table's "
+          "metadata.", "",
           "## What occplan did", "",
           "1. **find**: a spatial index on the catalog's unit vectors picked the stars near each "
           "planet's apparent path; each was refined to its closest approach (the minimum "
           "ring-plane radius seen from the geocentre) by root finding, and kept when that "
           "radius lies inside the outer ring plus the Earth's radius projected.",
           "2. **per station**: the topocentric chord of each kept star, its ring-region "
-          "crossings and the resonance zones (density waves, bending waves, resonance-held "
-          "edges) on the ingress and egress profiles.",
-          "3. **rank**: each zone crossing scores by its strength, how much of its wave train "
-          "the station's cadence, Fresnel scale and the star's diameter resolve, the SNR per "
-          "resolution element, and whether the planet is observable then (altitude, Sun); "
-          "ingress and egress count separately.",
+          "crossings and the ring features on the ingress and egress profiles: density and "
+          "bending waves that fit in their ring, resonance-held edges, narrow rings and "
+          "regions of overlapping resonances, derived from the satellites' resonances.",
+          "3. **rank**: each feature counts once, by its observable amplitude, how much of it "
+          "the station's cadence, Fresnel scale and the star's diameter resolve, the signal "
+          "to noise of its own signal through the ring's opacity (with the planet's and the "
+          "rings' light in the aperture), and whether the planet is observable then "
+          "(altitude, Sun); a second crossing at another ring longitude adds by how far apart "
+          "it samples the feature. Events whose observability is unknown rank after the "
+          "observable ones, by their potential score.",
           "4. **evaluate** the top events in full: chord tables, figures, cautions.", "",
           "## Stations", ""]
     md.append(_md_table(campaign["sites"], [("name", "station"), ("lat_deg", "lat"),

@@ -43,15 +43,22 @@ def season_chart(rows: list[dict], ax=None, aspect=None, title: str | None = Non
     for i, site in enumerate(sites):
         sel = [r for r in rows if r["site"] == site]
         x = [_date(r["closest_approach_utc"]) for r in sel]
-        y = [r.get("score") or 0.0 for r in sel]
-        size = np.array([20 + 4 * (r.get("zones_resolvable") or 0) for r in sel])
-        zero = np.array([not (r.get("score") or 0.0) for r in sel], dtype=bool)
+        unknown = np.array([r.get("observability") == "unknown" for r in sel], dtype=bool)
+        y = [(r.get("potential_score") if r.get("observability") == "unknown" else r.get("score"))
+             or 0.0 for r in sel]
+        size = np.array([20 + 6 * (r.get("features_resolvable") or 0) for r in sel])
         x, y = np.array(x, dtype=object), np.array(y, dtype=float)
-        ax.scatter(x[~zero], y[~zero], s=size[~zero], color=cmap(i % 10), label=site, alpha=0.8,
+        zero = (y == 0) & ~unknown
+        known = ~zero & ~unknown
+        ax.scatter(x[known], y[known], s=size[known], color=cmap(i % 10), label=site, alpha=0.8,
                    edgecolor="k", linewidth=0.4, zorder=3)
         # score 0: nothing usable (daylight, planet too low or hidden): hollow markers
         ax.scatter(x[zero], y[zero], s=size[zero], facecolor="none", edgecolor=cmap(i % 10),
                    linewidth=1.0, zorder=3)
+        # observability not evaluated (geocentre, spacecraft): the potential score, squares
+        ax.scatter(x[unknown], y[unknown], s=size[unknown], marker="s", facecolor="none",
+                   edgecolor=cmap(i % 10), linewidth=1.0, zorder=3,
+                   label=site if not np.any(known) else None)
     best = sorted(rows, key=lambda r: -(r.get("score") or 0.0))[:max(label_top, 0)]
     for k, r in enumerate(best):
         sid = str(r["star_id"])
@@ -59,12 +66,16 @@ def season_chart(rows: list[dict], ax=None, aspect=None, title: str | None = Non
         ax.annotate(f"#{k + 1} {short}", (_date(r["closest_approach_utc"]), r.get("score") or 0.0),
                     textcoords="offset points", xytext=(5, 3), fontsize=7)
     ax.set_xlabel("closest approach (UTC)")
-    ax.set_ylabel("score (resolved-zone equivalents)")
-    top = max([r.get("score") or 0.0 for r in rows] + [1.0])
+    ax.set_ylabel("score (resolved-feature equivalents)")
+    top = max([r.get("score") or 0.0 for r in rows] + [r.get("potential_score") or 0.0 for r in rows]
+              + [1.0])
     ax.set_ylim(0, 1.15 * top)
     ax.grid(alpha=0.3)
-    if any(not (r.get("score") or 0.0) for r in rows):
+    if any(not (r.get("score") or 0.0) and r.get("observability") != "unknown" for r in rows):
         ax.scatter([], [], s=40, facecolor="none", edgecolor="0.3", label="score 0 (not observable)")
+    if any(r.get("observability") == "unknown" for r in rows):
+        ax.scatter([], [], s=40, marker="s", facecolor="none", edgecolor="0.3",
+                   label="observability unknown: potential score")
     handles, labels = ax.get_legend_handles_labels()
     if aspect is not None:
         times, b_deg = aspect
@@ -78,7 +89,7 @@ def season_chart(rows: list[dict], ax=None, aspect=None, title: str | None = Non
     if handles:
         ax.legend(handles, labels, loc="upper center", bbox_to_anchor=(0.5, -0.32),
                   ncol=len(labels), fontsize=8, frameon=False,
-                  title="site (marker size: resolvable zones); labels: rank and star id", title_fontsize=8)
+                  title="site (marker size: features resolved); labels: rank and star id", title_fontsize=8)
     ax.set_title(title or "Candidate ring occultations over the season")
     ax.figure.autofmt_xdate()
     return ax

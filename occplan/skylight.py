@@ -144,19 +144,30 @@ class ApertureBackground:
 
     # ---------------------------------------------------------------- the aperture
     def rates(self, f_km: float, g_km: float) -> dict:
-        """Detected photons/s from the planet and the rings in an aperture centred at (f, g).
+        """Detected photons/s from the planet and the rings in an aperture centred at (f, g)."""
+        planet, ring = self.rates_many(np.array([f_km]), np.array([g_km]))
+        return {"planet_rate_photons_s": float(planet[0]), "ring_rate_photons_s": float(ring[0]),
+                "rate_photons_s": float(planet[0] + ring[0])}
+
+    def rates_many(self, f_km, g_km):
+        """(planet, ring) photons/s in apertures centred at many sky positions (arrays).
 
         Positions are quantized to a twentieth of the seeing sigma and cached."""
         q = self.sigma_km / 20.0
-        key = (round(f_km / q), round(g_km / q))
-        if key not in self._cache:
-            fx, gx = key[0] * q + self._gx, key[1] * q + self._gy
+        keys = list(zip(np.round(np.asarray(f_km) / q).astype(np.int64).tolist(),
+                        np.round(np.asarray(g_km) / q).astype(np.int64).tolist()))
+        todo = sorted({k for k in keys if k not in self._cache})
+        for chunk in range(0, len(todo), 64):
+            part = np.array(todo[chunk:chunk + 64], dtype=float) * q
+            fx = part[:, :1] + self._gx[None, :]
+            gx = part[:, 1:] + self._gy[None, :]
             planet_if, ring_if = self.surface_if(fx, gx)
-            planet = float(np.sum(planet_if * self._weight)) * self.rate_per_km2_if1
-            ring = float(np.sum(ring_if * self._weight)) * self.rate_per_km2_if1
-            self._cache[key] = {"planet_rate_photons_s": planet, "ring_rate_photons_s": ring,
-                                "rate_photons_s": planet + ring}
-        return self._cache[key]
+            planet = planet_if @ self._weight * self.rate_per_km2_if1
+            ring = ring_if @ self._weight * self.rate_per_km2_if1
+            for k, pl, rg in zip(todo[chunk:chunk + 64], planet, ring):
+                self._cache[k] = (float(pl), float(rg))
+        out = np.array([self._cache[k] for k in keys]).reshape(-1, 2)
+        return out[:, 0], out[:, 1]
 
     def describe(self) -> dict:
         return {"model": "planet disk at its geometric albedo and rings at I/F_thick (1 - "

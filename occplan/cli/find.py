@@ -26,7 +26,7 @@ Chart = Annotated[Optional[str], typer.Option("--chart", help="Also draw the sea
 Progress = Annotated[Optional[bool], typer.Option("--progress/--no-progress", help="Progress bars on stderr (default: when stderr is a terminal).")]
 
 TABLE_COLUMNS = ["star_id", "site", "closest_approach_utc", "min_ring_radius_km", "regions",
-                 "behind_planet", "vmag", "kmag", "zones_crossed", "zones_resolvable", "score"]
+                 "behind_planet", "vmag", "kmag", "features_crossed", "features_resolvable", "score"]
 NESTED = ("zones", "zone_factors")
 
 
@@ -149,7 +149,7 @@ def register(app: typer.Typer) -> None:
         header = (f"# {meta['body']}: {info['stars_searched']} stars searched, "
                   f"{info['candidates']} geocentric candidates, {len(rows)} events "
                   f"{meta['start_utc']} .. {meta['end_utc']}\n# threshold: {info['threshold']}\n")
-        cols = [c for c in TABLE_COLUMNS if no_zones is False or c not in ("zones_crossed", "zones_resolvable", "score")]
+        cols = [c for c in TABLE_COLUMNS if no_zones is False or c not in ("features_crossed", "features_resolvable", "score")]
         output(rows, meta, fmt, out, overwrite, cols, header)
         if chart is not None:
             from ..season_chart import write_season_chart

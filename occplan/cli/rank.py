@@ -17,9 +17,9 @@ From = Annotated[Optional[str], typer.Option("--from", help="A find result (.jso
 Top = Annotated[Optional[int], typer.Option("--top", help="Keep only the N best events.")]
 
 RANK_COLUMNS = ["rank", "star_id", "site", "closest_approach_utc", "min_ring_radius_km",
-                "zones_crossed", "zones_resolvable", "zones_hidden", "zones_unusable",
-                "strength_sum", "resolvable_factor_sum", "snr_factor_sum", "usable_factor_sum",
-                "score_ingress", "score_egress", "score", "reasons"]
+                "features_crossed", "features_resolvable", "features_both_sides",
+                "crossings_hidden", "crossings_unusable", "observability", "score_ingress",
+                "score_egress", "score", "potential_score", "deciding_features"]
 
 
 def register(app: typer.Typer) -> None:
@@ -84,9 +84,9 @@ def register(app: typer.Typer) -> None:
         ranked = ranking.rank_rows(rows)
         if top is not None:
             ranked = ranked[:top]
-        header = (f"# {meta['body']}: {len(ranked)} events ranked by resonance coverage; "
-                  "score = sum over zone crossings of side x strength x resolvable x SNR x "
-                  "usable (weights: " + str(meta.get("ranking", {}).get("weights", {}).get("path", "")) + ")\n")
+        header = (f"# {meta['body']}: {len(ranked)} events ranked by the ring features they resolve; "
+                  f"{ranking.SCORE_FORMULA} (weights: "
+                  + str(meta.get("ranking", {}).get("weights", {}).get("path", "")) + ")\n")
         f.output(ranked, meta, fmt, out, overwrite, RANK_COLUMNS, header)
         if chart is not None:
             from ..season_chart import write_season_chart
