@@ -513,7 +513,7 @@ def _merge(key, items, group, settings) -> Feature:
     r_mean = float(np.sum(w * [t.resonance_radius_km for t in terms]))
     sig = seg.surface_density_g_cm2
     torque = float(torques.sum() * sig)
-    ratio = f"{key[2][0]}:{key[2][1]}"
+    ratio = principal.label  # the strongest term names the feature (Mimas 4:2, not 2:1)
     common = dict(satellite=grp, label=ratio, kind=principal.kind, m=principal.m, k=principal.k,
                   p=principal.p, order=principal.order, resonance_radius_km=r_mean, region=seg.region,
                   optical_depth=seg.optical_depth, surface_density_g_cm2=sig,
@@ -666,7 +666,10 @@ def body_features(body, max_order: int = 3, sigma_g_cm2=None, viscosity_cm2_s=No
         res = find_resonances(body, rmin_km=rmin_km, rmax_km=rmax_km, max_order=max_order,
                               satellites=satellites, sigma_g_cm2=sigma_g_cm2,
                               viscosity_cm2_s=viscosity_cm2_s, max_m=max_m)
-        _CACHE[key] = tuple(derive_features(body, res, settings))
+        feats = derive_features(body, res, settings)
+        lo = -np.inf if rmin_km is None else float(rmin_km)
+        hi = np.inf if rmax_km is None else float(rmax_km)
+        _CACHE[key] = tuple(f for f in feats if f.zone_outer_km >= lo and f.zone_inner_km <= hi)
     return list(_CACHE[key])
 
 

@@ -46,10 +46,19 @@ def test_every_table_has_a_source(name):
 
 @pytest.mark.parametrize("name", BODIES)
 def test_ring_regions_ordered_and_disjoint(name):
-    rings = get_body(name).rings
-    for inner, outer in itertools.pairwise(rings):
+    body = get_body(name)
+    # Ringlets lie inside a gap of a broader region; the broad regions are disjoint.
+    ringlets = set(body.ringlets_in_gaps)
+    broad = [r for r in body.rings if r not in ringlets]
+    for inner, outer in itertools.pairwise(broad):
         # Adjacent regions may touch (shared boundary) but must not overlap.
         assert inner.outer_km <= outer.inner_km, f"{inner.name} overlaps {outer.name}"
+    gaps = sorted(body.gaps, key=lambda g: g.inner_km)
+    for a, b in itertools.pairwise(gaps):
+        assert a.outer_km <= b.inner_km, f"{a.name} overlaps {b.name}"
+    for ring in ringlets:
+        assert ring.edge_a_km[0] < ring.edge_a_km[1]
+    rings = body.rings
     for ring in rings:
         assert ring.surface_density_g_cm2 > 0 and ring.viscosity_cm2_s > 0
         assert ring.optical_depth > 0
