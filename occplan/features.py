@@ -413,6 +413,11 @@ def derive_features(body, resonances, settings: FeatureSettings | None = None) -
     settings = settings or load_settings()
     segs = segments(body, settings)
     group = _groups(body)
+    # a term listed twice (same satellite, kind, m, k, p) is one term
+    unique = {}
+    for res in resonances:
+        unique.setdefault((res.satellite, res.kind, res.m, res.k, res.p), res)
+    resonances = list(unique.values())
     edges = _edge_candidates(resonances, segs, settings, group)
 
     # 1. single terms -> candidate features (key: what merges them)

@@ -92,12 +92,15 @@ def test_event_zones_are_consistent(report):
         assert z.resolvable == (z.achievable_resolution_km < z.feature_scale_km / 2
                                 and report.telescope.cadence_s <= z.required_interval_s
                                 and not z.partial and not z.behind_planet
-                                and not (np.isfinite(z.snr_per_element) and z.snr_per_element < 3.0))
+                                and z.feature.weight > 0
+                                and np.isfinite(z.snr_per_element) and z.snr_per_element >= 3.0)
         assert 0.0 <= z.resolved_fraction <= 1.0
         if z.resolvable:
             assert z.resolved_fraction == pytest.approx(1.0)
-    labels = {(r["satellite"], r["label"]) for r in data["zones"]}
-    assert ("Janus", "6:5") in labels and ("Mimas", "5:3") in labels
+    labels = {(r["satellite"], r["label"], r["feature"]) for r in data["zones"]}
+    # co-orbitals are one feature (Janus/Epimetheus); Mimas 5:3 has both waves
+    assert ("Janus/Epimetheus", "6:5", "density wave") in labels
+    assert ("Mimas", "5:3", "density wave") in labels and ("Mimas", "5:3", "bending wave") in labels
     assert data["resolution"]["fresnel_km"] == pytest.approx(
         math.sqrt(0.798e-9 * data["distance_au"] * 1.495978707e8 / 2), rel=1e-2)
 
@@ -121,11 +124,12 @@ def test_event_cli_summary_and_json(cli):
             "--end", "2027-06-15T01:30Z", "--max-order", "1"]
     res = cli(*args)
     assert res.exit_code == 0, res.output
-    for needle in ("Ring regions crossed", "Fresnel scale", "Resonance zones crossed", "Observability"):
+    for needle in ("Ring regions crossed", "Fresnel scale", "Features crossed", "Observability"):
         assert needle in res.output
     data = json.loads(cli(*args, "--format", "json").output)
     z = data["zones"][0]
-    for key in ("label", "satellite", "kind", "wave", "m", "order", "resonance_radius_km", "side",
+    for key in ("name", "feature", "label", "satellite", "kind", "wave", "m", "order",
+                "resonance_radius_km", "side", "transmission", "contrast", "snr_per_element",
                 "time_utc", "start_utc", "end_utc", "radial_velocity_km_s", "required_interval_s",
                 "achievable_resolution_km", "resolvable", "behind_planet"):
         assert key in z
@@ -171,10 +175,15 @@ def test_event_telescope_file_with_unknown_key(cli, tmp_path):
 
 
 def test_gaps_are_crossed_and_hold_no_waves(saturn, report):
-    """The Encke gap (cleared by Pan; edges from memory, French et al. 2016) is crossed like
-    a region, and a resonance inside it (Prometheus 16:15 ILR, 133,557 km) is no A-ring wave."""
-    from occplan.events import select_resonances
+    """The Encke gap (cleared by Pan; edges French et al. 1993, Icarus 103, 163) is crossed
+    like a region, and no feature lies inside it (Prometheus 16:15 ILR, 133,557 km, is no
+    A-ring wave); wave zones next to it stop at its edges."""
+    from occplan.events import select_features
 
     assert any(p.region == "Encke gap" for p in report.track.passes)
-    inside = [r for r in select_resonances(saturn) if 133423.0 <= r.resonance_radius_km < 133745.0]
+    feats = select_features(saturn)
+    inside = [f for f in feats if 133423.24 < f.resonance_radius_km < 133744.84]
     assert inside == []
+    for f in feats:
+        if f.region == "A ring":
+            assert not (f.zone_inner_km < 133500.0 < f.zone_outer_km), f.name

@@ -10,8 +10,8 @@ from occplan.bodies import get_body
 from occplan.catalogs import Site
 from occplan.ephemeris import StarSpec, parse_utc, tdb_s_of
 from occplan.errors import DataFileError
-from occplan.ranking import (RankSettings, evaluate_and_score, load_weights, rescore_rows,
-                             score_zones, zone_factors)
+from occplan.ranking import (RankSettings, evaluate_and_score, load_weights, rank_rows,
+                             rescore_rows, score_zones, zone_factors)
 from occplan.telescope import load_telescope
 
 # An invented star on Saturn's geocentric path (about 12 arcsec from the planet centre on
@@ -23,10 +23,11 @@ SITE = Site("east", -25.0, 45.0, 100.0)
 
 
 def record(**kw):
-    base = {"label": "2:1", "satellite": "Mimas", "kind": "ILR", "side": "ingress",
-            "resonance_radius_km": 117550.0, "torque_dyn_cm": 1e19, "resolvable": True,
-            "behind_planet": False, "snr_per_element": 20.0, "shortest_wavelength_km": 4.0,
-            "achievable_resolution_km": 1.0, "usable": True}
+    base = {"name": "Mimas 2:1 edge", "feature": "edge", "label": "2:1", "satellite": "Mimas",
+            "kind": "ILR", "side": "ingress", "resonance_radius_km": 117550.0, "weight": 1.0,
+            "amplitude": 1.0, "torque_dyn_cm": 1e21, "resolvable": True, "behind_planet": False,
+            "snr_per_element": 10.0, "feature_scale_km": 4.0, "achievable_resolution_km": 1.0,
+            "resolved_fraction": 1.0, "ring_longitude_deg": 10.0, "usable": True}
     base.update(kw)
     return base
 
@@ -38,49 +39,88 @@ def test_default_weights_have_reasons():
             assert any(k.startswith(key) or k == table for k in w.sources), (table, key)
 
 
-def test_factor_arithmetic():
-    """strength = floor + (1 - floor) x log-normalised torque (module formula)."""
+def test_worked_example_of_the_module_docstring():
+    """occplan.ranking's worked example: an edge crossed on both sides, resolved, SNR 10 and
+    5 with reference 5, 150 deg apart: 0.8 + (1 - cos 150)/2 x 0.5 = 1.2665."""
     w = load_weights()
-    lo, hi = 17.0, 21.0
-    f = zone_factors(record(torque_dyn_cm=1e19), w, (lo, hi))
-    floor = w["strength.floor"]
-    assert f["strength"] == pytest.approx(floor + (1 - floor) * 0.5, abs=1e-12)
-    # SNR 20 at element max(1, 4/2) = 2 km: already at half the wavelength -> 20 -> factor 1
-    assert f["snr_factor"] == 1.0
-    # unresolved at 8 km: SNR scaled to the 2 km element, sqrt(2/8) x 20 = 10
-    g = zone_factors(record(resolvable=False, achievable_resolution_km=8.0), w, (lo, hi))
-    assert g["snr_half_wavelength"] == pytest.approx(10.0, abs=1e-12)
-    assert g["resolvable_factor"] == w["resolvable.unresolved"]
-    assert zone_factors(record(behind_planet=True), w, (lo, hi))["contribution"] == 0.0
-    assert zone_factors(record(usable=False), w, (lo, hi))["contribution"] == 0.0
-    s = score_zones([record(), record(side="egress")], w, (lo, hi))
-    assert s["score"] == pytest.approx(s["score_ingress"] + s["score_egress"], abs=1e-12)
-    assert s["score_ingress"] == pytest.approx(s["score_egress"], abs=1e-12)
-    assert s["zones_crossed"] == 2 and "best:" in s["reasons"]
+    assert w["snr.reference"] == 5.0
+    recs = [record(snr_per_element=10.0, ring_longitude_deg=10.0),
+            record(side="egress", snr_per_element=5.0, ring_longitude_deg=160.0)]
+    s = score_zones(recs, w)
+    assert s["score"] == pytest.approx(0.8 + (1 - math.cos(math.radians(150))) / 2 * 0.5, abs=1e-12)
+    assert s["features_crossed"] == 1 and s["features_both_sides"] == 1
+    assert s["score_ingress"] == pytest.approx(0.8) and s["score_egress"] == pytest.approx(0.5)
+    assert "Mimas 2:1 edge" in s["deciding_features"]
+
+
+def test_factor_arithmetic():
+    w = load_weights()
+    f = zone_factors(record(weight=0.3, resolved_fraction=0.5, snr_per_element=5.0), w)
+    assert f["value"] == pytest.approx(0.3 * 0.5 * 0.5, abs=1e-12)
+    # no credit floor: an unresolved feature earns nothing, whatever its SNR
+    assert zone_factors(record(resolved_fraction=0.0, resolvable=False), w)["value"] == 0.0
+    assert zone_factors(record(behind_planet=True), w)["value"] == 0.0
+    assert zone_factors(record(usable=False), w)["value"] == 0.0
+    # a corotation zone (weight 0 by kind) never scores
+    assert zone_factors(record(feature="corotation", weight=0.0), w)["value"] == 0.0
+    # unknown SNR counts as a marginal detection, never as a good one
+    unknown = zone_factors(record(snr_per_element=float("nan")), w)["snr_factor"]
+    assert unknown == w["snr.unknown"] < zone_factors(record(snr_per_element=5.0), w)["snr_factor"]
+
+
+def test_same_longitude_twice_saturates():
+    """A second crossing at the same ring longitude adds nothing; at the opposite ansa it
+    counts in full (diversity (1 - cos dlon)/2)."""
+    w = load_weights()
+    one = score_zones([record()], w)["score"]
+    same = score_zones([record(), record(side="egress")], w)["score"]
+    opposite = score_zones([record(), record(side="egress", ring_longitude_deg=190.0)], w)["score"]
+    assert same == pytest.approx(one, abs=1e-12)
+    assert opposite == pytest.approx(2 * one, abs=1e-12)
+
+
+def test_unknown_observability_is_not_perfect():
+    """Geocentre crossings (usable None) go to potential_score; score stays 0, and the rank
+    puts every observable event with a score first."""
+    w = load_weights()
+    geo = score_zones([record(usable=None), record(usable=None, side="egress",
+                                                   ring_longitude_deg=190.0)], w)
+    assert geo["score"] == 0.0 and geo["potential_score"] > 0 and geo["observability"] == "unknown"
+    site = score_zones([record(weight=0.1)], w)
+    rows = rank_rows([{"star_id": "geo", **geo}, {"star_id": "site", **site}])
+    assert [r["star_id"] for r in rows] == ["site", "geo"]
 
 
 def test_user_weights_and_bad_files(tmp_path):
     p = tmp_path / "w.toml"
-    p.write_text("[resolvable]\nunresolved = 0.5\n")
-    assert load_weights(p)["resolvable.unresolved"] == 0.5
-    assert load_weights(p)["resolvable.resolvable"] == 1.0
-    for text, needle in (("[resolvable]\nfoo = 1\n", "unknown key"),
+    p.write_text("[snr]\nreference = 10.0\n")
+    assert load_weights(p)["snr.reference"] == 10.0
+    assert load_weights(p)["kinds.edge"] == 1.0
+    for text, needle in (("[snr]\nfoo = 1\n", "unknown key"),
                          ("[bogus]\nx = 1\n", "unknown table"),
                          ("[snr]\nreference = -1\n", ">= 0"),
+                         ("[snr]\nunknown = 2\n", "<= 1"),
                          ("[snr\n", "not valid TOML")):
         p.write_text(text)
         with pytest.raises(DataFileError, match=needle):
             load_weights(p)
+    p.write_bytes(b"[snr]\nreference = \xff\n")
+    with pytest.raises(DataFileError, match="UTF-8"):
+        load_weights(p)
 
 
 def test_rescore_with_other_weights(tmp_path):
     w = load_weights()
-    rows = [{"star_id": "1", "zones": [record(resolvable=False, achievable_resolution_km=8.0)]}]
-    meta = {"ranking": {"torque_range_log10_dyn_cm": [17.0, 21.0]}}
-    base = rescore_rows(rows, meta, w)[0]["score"]
+    rows = [{"star_id": "1", "zones": [record(snr_per_element=5.0)]}]
+    base = rescore_rows(rows, {}, w)[0]["score"]
+    assert base == pytest.approx(0.5)
     p = tmp_path / "w.toml"
-    p.write_text("[resolvable]\nunresolved = 0.5\n")
-    assert rescore_rows(rows, meta, load_weights(p))[0]["score"] == pytest.approx(5 * base, rel=1e-12)
+    p.write_text("[kinds]\nedge = 0.5\n")
+    assert rescore_rows(rows, {}, load_weights(p))[0]["score"] == pytest.approx(0.5 * base, rel=1e-12)
+    with pytest.raises(DataFileError, match="must be a number"):
+        rescore_rows([{"star_id": "1", "zones": [record(weight="big")]}], {}, w)
+    with pytest.raises(DataFileError, match="must be a list"):
+        rescore_rows([{"star_id": "1", "zones": "x"}], {}, w)
 
 
 @pytest.fixture(scope="module")
@@ -95,11 +135,30 @@ def test_faster_camera_never_ranks_lower(saturn_body):
         tel = load_telescope(None, cadence_s=cadence)
         _, s, _ = evaluate_and_score(saturn_body, STAR, SITE.observer(), WINDOW, site=SITE,
                                      settings=RankSettings(telescope=tel))
-        scores.append((s["score"], s["zones_resolvable"]))
+        scores.append((s["score"], s["features_resolvable"]))
     assert scores[0][0] > 0
     for (a, na), (b, nb) in zip(scores[:-1], scores[1:]):
         assert b >= a - 1e-9 and nb >= na
-    assert scores[-1][1] > scores[0][1]  # the sweep does change what is resolved
+    assert scores[-1][0] > scores[0][0]  # the sweep does change what is resolved
+
+
+@pytest.mark.parametrize("what", ["brighter star", "larger aperture"])
+def test_more_photons_rank_strictly_higher(saturn_body, what):
+    """Same geometry: a brighter star (same colour) or a larger telescope never ranks lower,
+    and strictly higher while features are not fully measured (q_snr < 1 everywhere)."""
+    scores = []
+    for step in range(3):
+        if what == "brighter star":
+            star = StarSpec(STAR.ra_deg, STAR.dec_deg, vmag=13.0 - 2 * step, kmag=11.0 - 2 * step)
+            tel = load_telescope(None)
+        else:
+            star = STAR
+            tel = load_telescope(None, aperture_m=0.5 * 2**step)
+        _, s, _ = evaluate_and_score(saturn_body, star, SITE.observer(), WINDOW, site=SITE,
+                                     settings=RankSettings(telescope=tel))
+        scores.append(s["score"])
+    assert scores[0] > 0
+    assert scores[0] < scores[1] < scores[2], scores
 
 
 def test_daylight_never_raises_the_score(saturn_body):
@@ -107,7 +166,21 @@ def test_daylight_never_raises_the_score(saturn_body):
     _, open_sky, _ = evaluate_and_score(saturn_body, STAR, SITE.observer(), WINDOW, site=SITE)
     strict = Site("east", -25.0, 45.0, 100.0, min_altitude_deg=89.0)  # Saturn never that high
     _, hidden, _ = evaluate_and_score(saturn_body, STAR, strict.observer(), WINDOW, site=strict)
-    assert open_sky["zones_crossed"] == hidden["zones_crossed"] > 0
+    assert open_sky["feature_crossings"] == hidden["feature_crossings"] > 0
     assert hidden["score"] <= open_sky["score"]
-    assert hidden["score"] == 0.0 and hidden["zones_unusable"] == hidden["zones_crossed"]
+    assert hidden["score"] == 0.0 and hidden["crossings_unusable"] == hidden["feature_crossings"]
+    assert hidden["observability"] == "not observable"
     assert math.isfinite(open_sky["score"])
+
+
+def test_duplicated_resonance_term_changes_nothing(saturn_body):
+    """A term listed twice in the resonance catalogue is one term: the features (and so
+    every score) are the same."""
+    from occplan.features import derive_features
+    from occplan.resonances import find_resonances
+
+    res = find_resonances(saturn_body, rmin_km=130000, rmax_km=137000, max_m=40)
+    base = derive_features(saturn_body, res)
+    doubled = derive_features(saturn_body, res + res[::7])
+    assert [(f.name, f.torque_dyn_cm, f.weight) for f in base] == \
+        [(f.name, f.torque_dyn_cm, f.weight) for f in doubled]
