@@ -20,8 +20,8 @@ report = evaluate_event(saturn, star, site, ("2027-06-14T23:50Z", "2027-06-15T01
 print(summary_text(report))
 
 resolvable = [z for z in report.zones if z.resolvable]
-print(f"{len(resolvable)} of {len(report.zones)} zone crossings resolvable with a "
+print(f"{len(resolvable)} of {len(report.zones)} feature crossings resolvable with a "
       f"{telescope.cadence_s} s cadence in {telescope.band}")
 fastest = max(report.zones, key=lambda z: z.max_radial_speed_km_s)
 print(f"fastest radial sweep: {fastest.max_radial_speed_km_s:.1f} km/s "
-      f"({fastest.resonance.satellite} {fastest.resonance.label}, {fastest.side})")
+      f"({fastest.feature.name}, {fastest.side})")

@@ -330,7 +330,8 @@ def evaluate_and_score(body, star, observer, window_s, *, site=None, kernels=Non
                          max_order=settings.max_order, sigma_g_cm2=settings.sigma_g_cm2,
                          min_snr=settings.min_snr, luminosity_class=settings.luminosity_class,
                          min_altitude_deg=getattr(site, "min_altitude_deg", None))
-    records = [zone_record(z) for z in rep.zones]
+    # corotation zones (weight 0) are listed in the event report but never score
+    records = [zone_record(z) for z in rep.zones if z.feature.weight > 0]
     return records, score_zones(records, weights), tel.name
 
 
@@ -455,8 +456,13 @@ def read_find_result(path: str | Path) -> tuple[list[dict], dict]:
                                 "(an object with 'meta' and 'rows')")
         rows, meta = data["rows"], data["meta"]
     elif p.suffix.lower() == ".ecsv":
+        import csv
+
         from astropy.table import Table
 
+        # the crossing records of an event are one JSON cell, often longer than the csv
+        # module's default field limit of 128 kB
+        csv.field_size_limit(2**31 - 1)
         try:
             table = Table.read(str(p), format="ascii.ecsv")
         except Exception as exc:

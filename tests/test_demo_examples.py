@@ -32,7 +32,7 @@ def test_demo_outputs_parse(demo_out):
         rows = ranked["rows"]
         assert rows, f"the demo finds {body} events"
         for key in ("star_id", "body", "site", "closest_approach_utc", "min_ring_radius_km",
-                    "zones_crossed", "score"):
+                    "features_crossed", "features_resolvable", "deciding_features", "score"):
             assert key in rows[0]
         scores = [r["score"] for r in rows]
         assert scores == sorted(scores, reverse=True)
