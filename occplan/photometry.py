@@ -668,6 +668,9 @@ def heliocentric_distance_au(planet_km, sun_km) -> np.ndarray:
 # --------------------------------------------------------------------------- ring opacity
 
 
+NONLINEAR_MODULATION = 0.5  # largest fractional optical-depth swing of a wave (feature_contrast)
+
+
 def slant_transmission(normal_optical_depth, star_elevation_deg):
     """Fraction of the star's light that passes the ring: exp(-tau / |sin B*|).
 
@@ -716,11 +719,13 @@ def feature_contrast(feature_kind: str, amplitude: float, normal_optical_depth: 
     -----
     With T = exp(-tau/mu), mu = |sin B*|:
 
-    - a wave modulating the optical depth by a fraction a (a = min(1, amplitude); for a
-      bending wave a = min(1, slope x cot|B*|), the change of the slant path with the ring's
-      local tilt, Shu, Cuzzi & Lissauer 1983, from memory) swings the transmission between
-      exp(-tau (1 -+ a) / mu); half of that swing is T sinh(a tau / mu) (= T a tau / mu for
-      small a);
+    - a wave modulating the optical depth by a fraction a (a = min(0.5, amplitude); for a
+      bending wave a = min(0.5, slope x cot|B*|), the change of the slant path with the
+      ring's local tilt, Shu, Cuzzi & Lissauer 1983, from memory) swings the transmission
+      between exp(-tau (1 -+ a) / mu); half of that swing is T sinh(a tau / mu)
+      (= T a tau / mu for small a).  The cap 0.5: a nonlinear wave's profile has sharp
+      crests and broad troughs that keep about half the mean surface density (Shu, Yuan &
+      Lissauer 1985, from memory), so even a strong wave does not clear the ring;
     - an edge or a narrow ring steps the transmission between T and 1: contrast 1 - T.
     """
     b = float(star_elevation_deg)
@@ -730,9 +735,9 @@ def feature_contrast(feature_kind: str, amplitude: float, normal_optical_depth: 
     if feature_kind in ("edge", "narrow ring"):
         return t, 1.0 - t
     if feature_kind in ("density wave", "overlap region"):
-        a = min(1.0, float(amplitude))
+        a = min(NONLINEAR_MODULATION, float(amplitude))
     elif feature_kind == "bending wave":
-        a = min(1.0, float(amplitude) * abs(math.cos(math.radians(b))) / mu)
+        a = min(NONLINEAR_MODULATION, float(amplitude) * abs(math.cos(math.radians(b))) / mu)
     else:
         return t, float("nan")
     with np.errstate(over="ignore"):
