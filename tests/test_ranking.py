@@ -184,3 +184,40 @@ def test_duplicated_resonance_term_changes_nothing(saturn_body):
     doubled = derive_features(saturn_body, res + res[::7])
     assert [(f.name, f.torque_dyn_cm, f.weight) for f in base] == \
         [(f.name, f.torque_dyn_cm, f.weight) for f in doubled]
+
+
+def test_uranus_chord_through_all_rings_outranks_epsilon_alone():
+    """Same star brightness, same observer: a chord through all ten rings outranks one that
+    reaches only the epsilon ring (each narrow ring is one feature).  Invented stars placed
+    by root finding on the chord's closest-approach radius; geocentre, so the comparison is
+    of the potential score (observability unknown)."""
+    from scipy.optimize import brentq
+
+    from occplan.ephemeris import Observer, get_ephemeris
+    from occplan.geometry import compute_track, window_times
+
+    from .test_geometry import offset_star, saturn_radec
+
+    eph = get_ephemeris()
+    uranus = get_body("uranus")
+    t_mid = tdb_s_of(parse_utc("2028-11-16T04:00:00Z"))
+    ra, dec = saturn_radec(eph, uranus, t_mid)
+    times = window_times(t_mid - 3 * 3600, t_mid + 3 * 3600, 60.0)
+
+    def min_radius(d_arcsec):
+        star = offset_star(ra, dec, 0.0, d_arcsec)
+        return compute_track(eph, uranus, Observer.geocentre(), star, times).closest_approach_radius_km
+
+    scores = {}
+    for name, target in (("all rings", 36000.0), ("epsilon only", 50350.0)):
+        d = brentq(lambda x: min_radius(x) - target, 0.01, 6.0, xtol=1e-4)
+        star = offset_star(ra, dec, 0.0, d)
+        star = StarSpec(star.ra_deg, star.dec_deg, vmag=12.0, kmag=9.0, name=name)
+        records, s, _ = evaluate_and_score(uranus, star, Observer.geocentre(),
+                                           (t_mid - 3 * 3600, t_mid + 3 * 3600),
+                                           settings=RankSettings(telescope=load_telescope(None, band="K")))
+        assert s["observability"] == "unknown" and s["score"] == 0.0
+        scores[name] = (s["potential_score"], {r["name"] for r in records})
+    assert "6 ring" in scores["all rings"][1] and "6 ring" not in scores["epsilon only"][1]
+    assert "epsilon ring" in scores["epsilon only"][1]
+    assert scores["all rings"][0] > scores["epsilon only"][0] > 0
