@@ -84,6 +84,10 @@ def event_report(opts: dict):
     o = opts
     if o["sigma"] is not None and o["sigma"] < 0:
         raise InputError(f"--sigma {o['sigma']} g/cm^2 is negative")
+    from ..chords import check_chord_step
+
+    t0_s, t1_s = window(o["start"], o["end"])
+    check_chord_step(t0_s, t1_s, o["step"])
     profile = o["telescope"]
     if profile is None and o["site"] is not None and o["sites"] is not None:
         profile = find_site(o["sites"], o["site"]).telescope  # the site's own, as find/rank use
@@ -95,7 +99,7 @@ def event_report(opts: dict):
              o["vmag"], o["kmag"], o["catalog"], o["star_id"]),
         observer(o["site"], o["sites"], o["lat"], o["lon"], o["height"], o["geocentre"],
                  o["observer_id"]),
-        window(o["start"], o["end"]), telescope=tel, kernels=o["kernel"],
+        (t0_s, t1_s), telescope=tel, kernels=o["kernel"],
         deflection=not o["no_deflection"], barycentre_only=o["barycentre"], step_s=o["step"],
         max_order=o["max_order"], sigma_g_cm2=o["sigma"],
         samples_per_wavelength=o["samples_per_wavelength"],
