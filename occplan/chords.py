@@ -55,13 +55,17 @@ def ring_note(track: Track) -> str:
     body = track.body
     rmin = track.closest_approach_radius_km
     if not np.isfinite(rmin):
+        b, b_star = track.meta["opening_angle_deg"], track.meta["star_elevation_deg"]
         if not np.any(np.isfinite(track.sky_f_km)):
-            why = f"the star is more than 90 deg from {body.name} on the sky"
+            why = (f"behind the observer: the star is more than 90 deg from {body.name} on "
+                   "the sky")
+        elif b * b_star > 0:
+            why = ("behind the observer: the star and the observer are on the same side of "
+                   "the ring plane (B and B* have the same sign)")
         else:
-            why = ("the star and the observer are on the same side of the ring plane "
-                   "(B and B* have the same sign)")
-        return (f"no ring crossing: the line of sight meets the ring plane of {body.name} only "
-                f"behind the observer ({why})")
+            why = (f"far beyond the planet: the line of sight runs nearly along the ring "
+                   f"plane (B* {b_star:+.4f} deg)")
+        return f"no ring crossing: the line of sight meets the ring plane of {body.name} only {why}"
     when = utc_iso(time_from_tdb_s(track.closest_approach_s), 0)
     edge = " (at the window edge: widen the window to see the true minimum)" \
         if track.closest_approach_at_edge else ""

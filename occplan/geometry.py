@@ -20,11 +20,13 @@ For reception times t at the observer O(t) (barycentric ICRF, km; TDB Julian dat
    angle P = atan2(n.f, n.g) (from north through east).
 7. A sample has a ring-plane intercept only if the intercept lies in front of the observer
    (lambda > 0), the ray passes the planet in front of the observer ((P - O).s > 0, the
-   star less than 90 deg from the planet) and the star lies beyond the intercept (lambda
-   below the star's distance when it has a parallax).  Otherwise the line through the star
-   meets the ring plane only behind the observer (a star on the far side of the sky) and the
-   sample is "no crossing": radius, longitude and speeds are nan there, and so are the
-   sky-plane offsets when the ray passes the planet behind the observer.
+   star less than 90 deg from the planet) and the intercept lies before the star (its
+   parallax distance) and within reach of the rings (:func:`intercept_reach_km`).
+   Otherwise the line through the star meets the ring plane only behind the observer (a
+   star on the far side of the sky, or on the observer's side of the ring plane) or far
+   beyond the planet (a ray along the ring plane), and the sample is "no crossing": radius,
+   longitude and speeds are nan there, and so are the sky-plane offsets when the ray passes
+   the planet behind the observer.
 
 Speed: the exact geometry is evaluated on coarse nodes (120 s by default) and the smooth
 quantities (in-plane components of rho, sky-plane offsets, angles, distance, limb function)
@@ -131,7 +133,7 @@ def exact_geometry(eph, body, observer, star, tdb_s, corrections: Corrections = 
         lam = _dot(n, planet - obs) / _sin_elevation(n, s)
         # An intercept behind the observer or far beyond the planet (a ray nearly in the ring
         # plane) has no light time worth the name: keep the ring time within the ephemeris.
-        reach = 2.0 * np.linalg.norm(planet - obs, axis=0)
+        reach = intercept_reach_km(body, np.linalg.norm(planet - obs, axis=0))
         t_ring = t - np.clip(lam, 0.0, reach) / SPEED_OF_LIGHT_KM_S
 
     q = planet - obs
@@ -155,8 +157,8 @@ def exact_geometry(eph, body, observer, star, tdb_s, corrections: Corrections = 
     rho = origin + lam * s - planet
     ray_length = _dot(origin - obs, s) + lam
     ahead = _dot(q, s) > 0.0
-    valid = ahead & (ray_length > 0.0) & (ray_length < star_distance_km(star)) \
-        & np.all(np.isfinite(rho), axis=0)
+    reach = np.minimum(intercept_reach_km(body, distance), star_distance_km(star))
+    valid = ahead & (ray_length > 0.0) & (ray_length < reach) & np.all(np.isfinite(rho), axis=0)
 
     node = _unit(_cross(np.broadcast_to(_Z[:, None], n.shape), n))
     perp = _cross(n, node)
@@ -197,6 +199,19 @@ def _sin_elevation(n, s):
     """n.s, kept away from zero (a ray in the ring plane meets it at a finite, huge lambda)."""
     ns = _dot(n, s)
     return np.where(np.abs(ns) < _MIN_SIN_ELEVATION, np.copysign(_MIN_SIN_ELEVATION, ns), ns)
+
+
+def intercept_reach_km(body, distance_km):
+    """Farthest ring-plane intercept along the ray that is still looked at, km.
+
+    Notes
+    -----
+    2 D + 10 R_out (D observer-planet distance, R_out the outermost ring edge): an intercept
+    beyond lies more than D + 10 R_out from the planet, far outside every ring, and only a ray
+    running nearly along the ring plane (|B*| << |B|) gets there.  Such samples are "no
+    crossing"; the limit also keeps the light-time iteration within two light-times.
+    """
+    return 2.0 * np.asarray(distance_km) + 10.0 * body.outer_ring_km
 
 
 def star_distance_km(star) -> float:
