@@ -36,9 +36,24 @@ def star(star_text=None, pm_ra=0.0, pm_dec=0.0, parallax=0.0, rv=0.0, star_epoch
     if star_text is None:
         raise InputError('give the star: --star "RA DEC" (or --catalog FILE --star-id ID)')
     ra, dec = parse_star_position(star_text)
+    _check_motion(pm_ra, pm_dec, parallax, rv)
     return StarSpec(ra_deg=ra, dec_deg=dec, pm_ra_mas_yr=pm_ra, pm_dec_mas_yr=pm_dec,
                     parallax_mas=parallax, rv_km_s=rv, epoch_jd_tt=parse_epoch_jd_tt(star_epoch),
                     name=star_text, vmag=check_magnitude(vmag, "V"), kmag=check_magnitude(kmag, "K"))
+
+
+def _check_motion(pm_ra, pm_dec, parallax, rv) -> None:
+    """Physical bounds of --pm-ra/--pm-dec/--parallax/--rv (see occplan.geometry.check_star)."""
+    from ..geometry import MAX_PARALLAX_MAS, MAX_PROPER_MOTION_MAS_YR, MAX_RADIAL_VELOCITY_KM_S
+
+    for option, value, low, high, unit in (
+            ("--pm-ra", pm_ra, -MAX_PROPER_MOTION_MAS_YR, MAX_PROPER_MOTION_MAS_YR, "mas/yr"),
+            ("--pm-dec", pm_dec, -MAX_PROPER_MOTION_MAS_YR, MAX_PROPER_MOTION_MAS_YR, "mas/yr"),
+            ("--parallax", parallax, 0.0, MAX_PARALLAX_MAS, "mas"),
+            ("--rv", rv, -MAX_RADIAL_VELOCITY_KM_S, MAX_RADIAL_VELOCITY_KM_S, "km/s")):
+        if not low <= value <= high:
+            raise InputError(f"{option} {value:g} {unit} is outside {low:g}..{high:g} {unit}, the "
+                             "range of real stars" + ("; pass 0 if unknown" if option == "--parallax" else ""))
 
 
 def observer(site=None, sites=None, lat=None, lon=None, height=0.0, geocentre=False,
