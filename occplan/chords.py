@@ -15,8 +15,9 @@ import numpy as np
 
 from . import __version__
 from .constants import AU_KM
+from .errors import InputError
 from .ephemeris import Observer, get_ephemeris, time_from_tdb_s, utc_iso, window_tdb_s
-from .geometry import Corrections, Track, compute_track, window_times
+from .geometry import Corrections, Track, check_node_budget, compute_track, window_times
 
 CHORD_COLUMNS = ["time_utc", "ring_radius_km", "ring_longitude_deg", "radial_velocity_km_s",
                  "sky_f_km", "sky_g_km", "opening_angle_deg", "behind_planet", "region"]
@@ -53,6 +54,18 @@ def ring_note(track: Track) -> str:
     """One sentence on whether and how the chord reaches the rings."""
     body = track.body
     rmin = track.closest_approach_radius_km
+    if not np.isfinite(rmin):
+        b, b_star = track.meta["opening_angle_deg"], track.meta["star_elevation_deg"]
+        if not np.any(np.isfinite(track.sky_f_km)):
+            why = (f"behind the observer: the star is more than 90 deg from {body.name} on "
+                   "the sky")
+        elif b * b_star > 0:
+            why = ("behind the observer: the star and the observer are on the same side of "
+                   "the ring plane (B and B* have the same sign)")
+        else:
+            why = (f"far beyond the planet: the line of sight runs nearly along the ring "
+                   f"plane (B* {b_star:+.4f} deg)")
+        return f"no ring crossing: the line of sight meets the ring plane of {body.name} only {why}"
     when = utc_iso(time_from_tdb_s(track.closest_approach_s), 0)
     edge = " (at the window edge: widen the window to see the true minimum)" \
         if track.closest_approach_at_edge else ""
@@ -63,6 +76,21 @@ def ring_note(track: Track) -> str:
     return f"closest approach: ring radius {rmin:,.0f} km at {when}{edge}"
 
 
+def check_chord_step(t0_s: float, t1_s: float, step_s: float) -> None:
+    """Refuse a step longer than the window (a chord needs two samples at least) and a
+    window over the memory budget (:func:`occplan.geometry.check_node_budget`).
+
+    Raises
+    ------
+    InputError
+    """
+    span = float(t1_s) - float(t0_s)
+    if np.isfinite(step_s) and np.isfinite(span) and step_s > span:
+        raise InputError(f"--step {step_s:g} s is longer than the window ({span:g} s): a chord "
+                         f"needs two samples at least; give --step {span:g} or less")
+    check_node_budget(t0_s, t1_s)
+
+
 def chord(body, star, observer: Observer, window, step_s: float = 60.0, kernels=None,
           deflection: bool = True, barycentre_only: bool = False, exact: bool = False) -> ChordResult:
     """The chord table of a star for an observer over a window (start, end).
@@ -71,6 +99,7 @@ def chord(body, star, observer: Observer, window, step_s: float = 60.0, kernels=
     """
     eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
     t0, t1 = window_tdb_s(window)
+    check_chord_step(t0, t1, step_s)
     times = window_times(t0, t1, step_s)
     track = compute_track(eph, body, observer, star, times,
                           Corrections(deflection=deflection, barycentre_only=barycentre_only),

@@ -97,7 +97,9 @@ def hidden_intervals(track: Track) -> list[tuple[float, float]]:
     m = track.meta
     disk = planet_disk(track.body, m["star_elevation_deg"], m["pole_position_angle_deg"])
     t0 = float(track.tdb_s[0])
-    line = LineString(np.column_stack([track.sky_f_km, track.sky_g_km, track.tdb_s - t0]))
+    pts = np.column_stack([track.sky_f_km, track.sky_g_km, track.tdb_s - t0])
+    pts = pts[np.isfinite(pts).all(axis=1)]  # nan: the ray passes the planet behind the observer
+    line = LineString(pts if len(pts) > 1 else [])
     inter = line.intersection(disk)
     out = []
     parts = getattr(inter, "geoms", [inter])

@@ -32,3 +32,7 @@ class GeometryError(OccplanError, ValueError):
 
 class OutputExistsError(OccplanError, FileExistsError):
     """An output file exists and --overwrite was not given."""
+
+
+class OutputPathError(OccplanError, ValueError):
+    """An output path that cannot be written (a folder, a missing folder, no permission)."""

@@ -18,6 +18,15 @@ For reception times t at the observer O(t) (barycentric ICRF, km; TDB Julian dat
 6. Sky plane at the planet: f = z x s/|z x s| (east), g = s x f (north), offsets in km.
    Opening angle B = asin(n.(O-P)/|O-P|); star elevation B* = asin(n.s); pole position
    angle P = atan2(n.f, n.g) (from north through east).
+7. A sample has a ring-plane intercept only if the intercept lies in front of the observer
+   (lambda > 0), the ray passes the planet in front of the observer ((P - O).s > 0, the
+   star less than 90 deg from the planet) and the intercept lies before the star (its
+   parallax distance) and within reach of the rings (:func:`intercept_reach_km`).
+   Otherwise the line through the star meets the ring plane only behind the observer (a
+   star on the far side of the sky, or on the observer's side of the ring plane) or far
+   beyond the planet (a ray along the ring plane), and the sample is "no crossing": radius,
+   longitude and speeds are nan there, and so are the sky-plane offsets when the ray passes
+   the planet behind the observer.
 
 Speed: the exact geometry is evaluated on coarse nodes (120 s by default) and the smooth
 quantities (in-plane components of rho, sky-plane offsets, angles, distance, limb function)
@@ -44,7 +53,16 @@ from .errors import GeometryError, InputError
 EDGE_ON_LIMIT_DEG = 0.01
 LIGHT_TIME_PASSES = 3
 DEFAULT_NODE_STEP_S = 120.0
+# Memory budget of one track: the exact geometry is evaluated on at most this many nodes
+# (about 555 days at 120 s; some 500 bytes a node are kept for the splines, about 250 MB),
+# in blocks of NODE_BLOCK (a topocentric node needs about 23 kB while it is evaluated).
+MAX_TRACK_NODES = 400_000
+NODE_BLOCK = 5_000
+MAX_SAMPLES = 5_000_000
 _Z = np.array([0.0, 0.0, 1.0])
+_Y = np.array([0.0, 1.0, 0.0])
+# |n.s| below this is treated as this (a ray in the ring plane): keeps lambda finite
+_MIN_SIN_ELEVATION = 1e-15
 
 
 def _unit(v):
@@ -88,7 +106,11 @@ def exact_geometry(eph, body, observer, star, tdb_s, corrections: Corrections = 
     ``ray_length`` distance from the observer to the intercept along the ray, km;
     ``limb`` scaled closest distance of the ray to the oblate planet minus 1 (negative: the
     star is behind the planet); ``ring_time`` TDB s at the intercept; ``deflection`` radial
-    sky-plane shift applied, km.
+    sky-plane shift applied, km; ``ahead`` True where the ray passes the planet in front of
+    the observer ((P - O).s > 0); ``valid`` True where the intercept is real (in front of the
+    observer, before the star: module docstring, item 7).  The other values stay finite where
+    ``valid`` is False (the intercept behind the observer) so that they can be splined; they
+    mean nothing there.
     """
     t = np.atleast_1d(np.asarray(tdb_s, dtype=float))
     when = time_from_tdb_s(t)
@@ -108,8 +130,11 @@ def exact_geometry(eph, body, observer, star, tdb_s, corrections: Corrections = 
             offset = eph.planet_offset_km(body, ring_when, barycentre_only).reshape(3, -1)
         planet = eph.planet_base_km(body, ring_when, barycentre_only).reshape(3, -1) + offset
         n = body.pole.unit_vector(J2000_TDB_JD + t_ring / SECONDS_PER_DAY).reshape(3, -1)
-        lam = _dot(n, planet - obs) / _dot(n, s)
-        t_ring = t - lam / SPEED_OF_LIGHT_KM_S
+        lam = _dot(n, planet - obs) / _sin_elevation(n, s)
+        # An intercept behind the observer or far beyond the planet (a ray nearly in the ring
+        # plane) has no light time worth the name: keep the ring time within the ephemeris.
+        reach = intercept_reach_km(body, np.linalg.norm(planet - obs, axis=0))
+        t_ring = t - np.clip(lam, 0.0, reach) / SPEED_OF_LIGHT_KM_S
 
     q = planet - obs
     distance = np.linalg.norm(q, axis=0)
@@ -128,12 +153,19 @@ def exact_geometry(eph, body, observer, star, tdb_s, corrections: Corrections = 
         shift = 0.5 * (b_eff + np.sqrt(b_eff * b_eff + 4.0 * re2)) - b_eff
         d = d * ((b + shift) / np.where(b > 0, b, 1.0))
     origin = planet + d - _dot(q, s) * s  # a point on the (shifted) ray: the closest point
-    lam = _dot(n, planet - origin) / _dot(n, s)
+    lam = _dot(n, planet - origin) / _sin_elevation(n, s)
     rho = origin + lam * s - planet
+    ray_length = _dot(origin - obs, s) + lam
+    ahead = _dot(q, s) > 0.0
+    reach = np.minimum(intercept_reach_km(body, distance), star_distance_km(star))
+    valid = ahead & (ray_length > 0.0) & (ray_length < reach) & np.all(np.isfinite(rho), axis=0)
 
     node = _unit(_cross(np.broadcast_to(_Z[:, None], n.shape), n))
     perp = _cross(n, node)
-    east = _unit(_cross(np.broadcast_to(_Z[:, None], s.shape), s))
+    east = _cross(np.broadcast_to(_Z[:, None], s.shape), s)
+    # At a celestial pole "east" is undefined: take the east of RA 0 there
+    pole_star = np.linalg.norm(east, axis=0) < 1e-12
+    east = _unit(np.where(pole_star, _Y[:, None], east))
     north = _cross(s, east)
 
     # Oblate-limb test: scale the planet to a unit sphere and find the ray's closest approach.
@@ -157,8 +189,44 @@ def exact_geometry(eph, body, observer, star, tdb_s, corrections: Corrections = 
         "limb": limb,
         "ring_time": t_ring,
         "deflection": shift,
-        "ray_length": lam,
+        "ray_length": ray_length,
+        "ahead": ahead,
+        "valid": valid,
     }
+
+
+def _sin_elevation(n, s):
+    """n.s, kept away from zero (a ray in the ring plane meets it at a finite, huge lambda)."""
+    ns = _dot(n, s)
+    return np.where(np.abs(ns) < _MIN_SIN_ELEVATION, np.copysign(_MIN_SIN_ELEVATION, ns), ns)
+
+
+def intercept_reach_km(body, distance_km):
+    """Farthest ring-plane intercept along the ray that is still looked at, km.
+
+    Notes
+    -----
+    2 D + 10 R_out (D observer-planet distance, R_out the outermost ring edge): an intercept
+    beyond lies more than D + 10 R_out from the planet, far outside every ring, and only a ray
+    running nearly along the ring plane (|B*| << |B|) gets there.  Such samples are "no
+    crossing"; the limit also keeps the light-time iteration within two light-times.
+    """
+    return 2.0 * np.asarray(distance_km) + 10.0 * body.outer_ring_km
+
+
+def star_distance_km(star) -> float:
+    """Distance of the star from its parallax (km; inf without one).
+
+    Notes
+    -----
+    d = 1 AU / tan(parallax) (common practice); a non-positive parallax means "unknown".
+    """
+    from .constants import AU_KM
+
+    p_mas = float(getattr(star, "parallax_mas", 0.0) or 0.0)
+    if not p_mas > 0.0:
+        return math.inf
+    return AU_KM / math.tan(math.radians(p_mas / 3.6e6))
 
 
 def _deflection_by_sun(p_hat, q_hat, e_vec):
@@ -279,6 +347,8 @@ class _Interpolant:
     def __init__(self, node_s, exact):
         self.t0 = float(node_s[0])
         self.node_s = np.asarray(node_s, dtype=float)
+        self.node_valid = np.asarray(exact["valid"], dtype=bool)
+        self.node_ahead = np.asarray(exact["ahead"], dtype=bool)
         x = node_s - self.t0
         values = dict(exact)
         values["pole_cos"] = np.cos(exact["pole_angle"])
@@ -291,6 +361,26 @@ class _Interpolant:
     def seconds(self, tdb_s):
         return np.asarray(tdb_s, dtype=float) - self.t0
 
+    def _between(self, node_mask, tdb_s):
+        """True where both nodes around each time satisfy ``node_mask``.
+
+        The splines are trusted only between two nodes with a real intercept: next to a node
+        without one the interpolated intercept is meaningless (it jumps through infinity
+        where a ray turns parallel to the ring plane), and such stretches lie far outside any
+        ring (at 90 deg from the planet or with the ray in the ring plane).
+        """
+        i = np.searchsorted(self.node_s, np.asarray(tdb_s, dtype=float), side="right") - 1
+        i = np.clip(i, 0, self.node_s.size - 2)
+        return node_mask[i] & node_mask[i + 1]
+
+    def valid(self, tdb_s):
+        """True where the ring-plane intercept is real (in front of the observer)."""
+        return self._between(self.node_valid, tdb_s)
+
+    def ahead(self, tdb_s):
+        """True where the ray passes the planet in front of the observer."""
+        return self._between(self.node_ahead, tdb_s)
+
     def __call__(self, tdb_s):
         x = self.seconds(tdb_s)
         out = dict(zip(self.KEYS, self.other(x)))
@@ -299,12 +389,17 @@ class _Interpolant:
         return out
 
     def in_plane(self, tdb_s):
-        """(u, du/dt) for the two in-plane components, shape (2, N) each."""
+        """(u, du/dt) for the two in-plane components, shape (2, N) each; nan where the
+        intercept is not real (:meth:`valid`)."""
         x = self.seconds(tdb_s)
-        return self.plane(x), self.plane_deriv(x)
+        bad = ~self.valid(tdb_s)
+        u, du = self.plane(x), self.plane_deriv(x)
+        if np.any(bad):
+            u, du = np.where(bad, np.nan, u), np.where(bad, np.nan, du)
+        return u, du
 
     def radius(self, tdb_s):
-        v = self.plane(self.seconds(tdb_s))
+        v = self.in_plane(tdb_s)[0]
         return np.hypot(v[0], v[1])
 
     def radial_velocity(self, tdb_s):
@@ -358,8 +453,9 @@ def crossing_times(interp: "_Interpolant", radii_km, t0: float, t1: float) -> li
     grid = interp.breaks()
     grid = grid[(grid >= t0) & (grid <= t1)]
     grid = np.union1d(grid, [t0, t1])
+    # r is nan where the intercept is not real: such brackets have no sign change
     f = interp.radius(grid)[:, None] - radii[None, :]
-    i, j = np.nonzero((np.sign(f[:-1]) * np.sign(f[1:]) < 0) | ((f[:-1] == 0) & (f[1:] != 0)))
+    i, j = np.nonzero((np.sign(f[:-1]) * np.sign(f[1:]) < 0) | ((f[:-1] == 0) & (np.abs(f[1:]) > 0)))
     out = [[] for _ in range(radii.size)]
     if i.size:
         # solve in seconds from the first break: TDB seconds past J2000 (~1e9) resolve only
@@ -373,14 +469,20 @@ def crossing_times(interp: "_Interpolant", radii_km, t0: float, t1: float) -> li
 
 
 def window_times(start_s: float, end_s: float, step_s: float) -> np.ndarray:
-    """Sample times from start to end inclusive at step_s seconds (TDB seconds past J2000)."""
+    """Sample times from start to end inclusive at step_s seconds (TDB seconds past J2000).
+
+    A step longer than the window gives the start alone.
+    """
     if not np.isfinite(step_s) or step_s <= 0:
-        raise InputError(f"--step must be positive, got {step_s} s")
+        raise InputError(f"--step must be a positive number of seconds, got {step_s}")
+    if not (np.isfinite(start_s) and np.isfinite(end_s)):
+        raise InputError("the window start and end must be finite times; check --start and --end")
     if end_s <= start_s:
         raise InputError("the window end is not after its start; check --start and --end")
     n = int(np.floor((end_s - start_s) / step_s + 1e-6)) + 1
-    if n > 5_000_000:
-        raise InputError(f"{n} samples is too many; use a larger --step")
+    if n > MAX_SAMPLES:
+        raise InputError(f"{n:,} samples is more than the {MAX_SAMPLES:,} one table may hold; "
+                         "use a larger --step or a shorter window")
     # Uniform in UTC, so printed times fall on the step (TDB - UTC wanders by +-1.7 ms a year)
     from .ephemeris import tdb_s_of, timescale
 
@@ -391,6 +493,51 @@ def window_times(start_s: float, end_s: float, step_s: float) -> np.ndarray:
         times = tdb_s_of(timescale().utc(int(y), int(mo), int(d), int(h), int(mi),
                                          sec + np.arange(n) * step_s))
     return np.atleast_1d(times)
+
+
+def check_node_budget(t0_s: float, t1_s: float, node_step_s: float = DEFAULT_NODE_STEP_S) -> int:
+    """Number of spline nodes over [t0, t1] (without the padding); refuses a window over
+    :data:`MAX_TRACK_NODES` before anything is allocated.
+
+    Raises
+    ------
+    InputError
+    """
+    span_s = float(t1_s) - float(t0_s)
+    n_inner = int(np.ceil(span_s / node_step_s)) + 1
+    if n_inner + 4 > MAX_TRACK_NODES:
+        days = MAX_TRACK_NODES * node_step_s / SECONDS_PER_DAY
+        raise InputError(
+            f"a {span_s / SECONDS_PER_DAY:,.1f}-day window needs {n_inner:,} geometry nodes "
+            f"({node_step_s:g} s apart, whatever --step is), over the budget of "
+            f"{MAX_TRACK_NODES:,} (about {days:,.0f} days); split the window into shorter ones")
+    return n_inner
+
+
+def track_nodes(t0_s: float, t1_s: float, node_step_s: float = DEFAULT_NODE_STEP_S) -> np.ndarray:
+    """Spline nodes spanning [t0, t1] at most ``node_step_s`` apart, two more on each side.
+
+    Raises
+    ------
+    InputError
+        More than :data:`MAX_TRACK_NODES` nodes (the memory budget of one track), refused
+        before anything is allocated.
+    """
+    span_s = float(t1_s) - float(t0_s)
+    n_inner = check_node_budget(t0_s, t1_s, node_step_s)
+    pad = node_step_s
+    inner = np.linspace(t0_s, t1_s, n_inner) if span_s > 0 else np.array([float(t0_s)])
+    return np.concatenate([[t0_s - 2 * pad, t0_s - pad], inner, [t1_s + pad, t1_s + 2 * pad]])
+
+
+def _exact_in_blocks(eph, body, observer, star, nodes, corrections):
+    """:func:`exact_geometry` on the nodes, NODE_BLOCK at a time (a loop over blocks, not
+    samples: it bounds the memory a topocentric evaluation needs while it runs)."""
+    if nodes.size <= NODE_BLOCK:
+        return exact_geometry(eph, body, observer, star, nodes, corrections)
+    parts = [exact_geometry(eph, body, observer, star, nodes[k:k + NODE_BLOCK], corrections)
+             for k in range(0, nodes.size, NODE_BLOCK)]
+    return {key: np.concatenate([p[key] for p in parts], axis=-1) for key in parts[0]}
 
 
 def compute_track(eph, body, observer, star, tdb_s, corrections: Corrections = Corrections(),
@@ -405,72 +552,123 @@ def compute_track(eph, body, observer, star, tdb_s, corrections: Corrections = C
     ``benchmarks/bench_chord.py``).  Ring-region boundary crossings and the closest approach
     are found by bracketed root finding on the interpolated r(t) (:func:`crossing_times`).
 
+    Samples without a real ring-plane intercept (behind the observer: module docstring,
+    item 7) are "no crossing": nan radius, longitude and speeds, no crossings there.  When no
+    sample has one, the closest approach is the first sample with a nan radius.
+
     Raises
     ------
     CoverageError
         A window outside the loaded kernels.
     GeometryError
-        Rings nearly edge-on (|B| or |B*| < 0.01 deg): the chord is undefined there.
+        Rings nearly edge-on to the observer (|B| < 0.01 deg, or B changing sign in the
+        window): the chord is undefined there.
+    InputError
+        Times not finite or not increasing, or a window over the node budget
+        (:data:`MAX_TRACK_NODES`).
     """
     t = np.atleast_1d(np.asarray(tdb_s, dtype=float))
     if t.size < 1 or not np.all(np.isfinite(t)):
         raise InputError("no valid sample times")
     if t.size > 1 and np.any(np.diff(t) <= 0):
         raise InputError("sample times must increase")
-    span_s = t[-1] - t[0]
-    n_nodes = max(int(np.ceil(span_s / node_step_s)) + 1, 2)
-    pad = node_step_s
-    nodes = np.linspace(t[0], t[-1], n_nodes)
-    nodes = np.concatenate([[t[0] - 2 * pad, t[0] - pad], nodes, [t[-1] + pad, t[-1] + 2 * pad]])
+    check_star(star)
+    nodes = track_nodes(t[0], t[-1], node_step_s)
     node_times = time_from_tdb_s(nodes)
     eph.check_planet_coverage(body, node_times)
     eph.check_observer_coverage(observer, node_times)
 
-    node_geo = exact_geometry(eph, body, observer, star, nodes, corrections)
+    node_geo = _exact_in_blocks(eph, body, observer, star, nodes, corrections)
     _check_edge_on(node_geo)
     interp = _Interpolant(nodes, node_geo)
+    valid, ahead = interp.valid(t), interp.ahead(t)
     if exact:
         geo = exact_geometry(eph, body, observer, star, t, corrections)
         geo["pole_cos"], geo["pole_sin"] = np.cos(geo["pole_angle"]), np.sin(geo["pole_angle"])
+        valid, ahead = valid & geo["valid"], ahead & geo["ahead"]
         # Derivatives: from the node splines even in exact mode (no finite differences).
         _, dv = interp.in_plane(t)
         v = np.vstack([geo["u_node"], geo["u_perp"]])
     else:
         geo = interp(t)
         v, dv = interp.in_plane(t)
-    r = np.hypot(v[0], v[1])
-    vr = (v[0] * dv[0] + v[1] * dv[1]) / r
-    vlon = (v[0] * dv[1] - v[1] * dv[0]) / r**2
-    lon = np.degrees(np.arctan2(geo["u_perp"], geo["u_node"])) % 360.0
+    v = np.where(valid, v, np.nan)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        r = np.hypot(v[0], v[1])
+        vr = (v[0] * dv[0] + v[1] * dv[1]) / r
+        vlon = (v[0] * dv[1] - v[1] * dv[0]) / r**2
+    lon = np.degrees(np.arctan2(v[1], v[0])) % 360.0
     pole = np.degrees(np.arctan2(geo["pole_sin"], geo["pole_cos"])) % 360.0
 
     track = Track(
         body=body, observer=observer, star=star, tdb_s=t,
         ring_radius_km=r, ring_longitude_deg=lon, radial_velocity_km_s=vr,
         longitude_rate_deg_s=np.degrees(vlon),
-        sky_f_km=geo["sky_f"], sky_g_km=geo["sky_g"],
+        sky_f_km=np.where(ahead, geo["sky_f"], np.nan),
+        sky_g_km=np.where(ahead, geo["sky_g"], np.nan),
         opening_angle_deg=np.degrees(geo["opening_angle"]),
         star_elevation_deg=np.degrees(geo["star_elevation"]),
         pole_position_angle_deg=pole, distance_km=geo["distance"],
-        behind_planet=geo["limb"] < 0.0, interp=interp,
+        behind_planet=(geo["limb"] < 0.0) & ahead, interp=interp,
     )
     _find_events(track, interp, body, nodes, t)
     track.meta = track_meta(eph, body, observer, star, corrections, node_geo, t, node_step_s,
                             exact)
+    track.meta["samples_with_intercept"] = int(np.count_nonzero(valid))
     # How much a pole error moves the radii: tilting the ring plane by delta moves the
     # intercept of a ray at radius r by about r delta / tan|B*| (common practice).
     # Quoted at the outermost ring edge the chord reaches (else at the closest approach).
     tan_b = abs(math.tan(math.radians(track.meta["star_elevation_deg"])))
     r_ref = max([c.boundary_km for c in track.crossings] or [track.closest_approach_radius_km])
+    if not np.isfinite(r_ref):  # no intercept in front of the observer: quote the outer rings
+        r_ref = body.outer_ring_km
     track.meta["pole_sensitivity_radius_km"] = float(r_ref)
     track.meta["pole_sensitivity_km_per_mdeg"] = r_ref * math.radians(1e-3) / max(tan_b, 1e-6)
     return track
 
 
+# Physical bounds of a star's catalogue motion (common practice): the largest known proper
+# motion is about 10 arcsec/yr (Barnard's star), the largest parallax about 0.77 arcsec
+# (Proxima Cen), stellar radial velocities stay well below 1,000 km/s (from memory).
+MAX_PROPER_MOTION_MAS_YR = 1.0e5
+MAX_PARALLAX_MAS = 1.0e4
+MAX_RADIAL_VELOCITY_KM_S = 1.0e4
+
+
+def check_star(star) -> None:
+    """Refuse a star whose motion is not finite or not physical (a "star" 2 AU away).
+
+    The bounds are ten times the extremes known (:data:`MAX_PROPER_MOTION_MAS_YR`,
+    :data:`MAX_PARALLAX_MAS`, :data:`MAX_RADIAL_VELOCITY_KM_S`).
+
+    Raises
+    ------
+    InputError
+        With the field named and the bound.
+    """
+    name = f"star {star.name}: " if getattr(star, "name", "") else ""
+    for field_name, label, bound, unit in (
+            ("pm_ra_mas_yr", "proper motion in RA", MAX_PROPER_MOTION_MAS_YR, "mas/yr"),
+            ("pm_dec_mas_yr", "proper motion in Dec", MAX_PROPER_MOTION_MAS_YR, "mas/yr"),
+            ("parallax_mas", "parallax", MAX_PARALLAX_MAS, "mas"),
+            ("rv_km_s", "radial velocity", MAX_RADIAL_VELOCITY_KM_S, "km/s")):
+        value = float(getattr(star, field_name, 0.0) or 0.0)
+        if not math.isfinite(value):
+            raise InputError(f"{name}{label} {value} is not a finite number")
+        if abs(value) > bound:
+            raise InputError(f"{name}{label} {value:g} {unit} is beyond any star's "
+                             f"(at most {bound:g} {unit} in absolute value)")
+
+
 def _check_edge_on(geo):
-    worst_b = np.degrees(np.min(np.abs(geo["opening_angle"])))
-    worst_bs = np.degrees(np.min(np.abs(geo["star_elevation"])))
-    worst = min(worst_b, worst_bs)
+    """Refuse a window where the observer sees the rings nearly edge-on.
+
+    Only the observer's opening angle B matters: a star near the ring plane (small B*) seen
+    from an observer well off the plane just meets the plane far from the planet.
+    """
+    b = geo["opening_angle"]
+    crosses_plane = np.any(np.signbit(b[1:]) != np.signbit(b[:-1]))
+    worst = 0.0 if crosses_plane else float(np.degrees(np.min(np.abs(b))))
     if worst < EDGE_ON_LIMIT_DEG:
         raise GeometryError(
             f"the rings are nearly edge-on in this window (|B| = {worst:.4f} deg < "
@@ -482,14 +680,24 @@ def _check_edge_on(geo):
 def _find_events(track: Track, interp: _Interpolant, body, nodes, t):
     """Closest approach, boundary crossings and region passes, by root finding."""
     t0, t1 = t[0], t[-1]
-    # Closest approach: the smallest local minimum of r in the window (roots of u.du/dt).
+    # Closest approach: the smallest local minimum of r in the window (roots of u.du/dt),
+    # or a window end; r is nan where the intercept is not real.
     mins = [float(x) for x in interp.extrema()[0] if t0 <= x <= t1]
     candidates = mins + [t0, t1]
     radii = interp.radius(np.array(candidates))
-    k = int(np.argmin(radii))
-    track.closest_approach_s = float(candidates[k])
-    track.closest_approach_radius_km = float(radii[k])
-    track.closest_approach_at_edge = k >= len(mins)
+    edge = [k >= len(mins) for k in range(len(candidates))]
+    if not np.any(np.isfinite(radii)):  # no real intercept at the ends: try every sample
+        candidates, radii = list(t), track.ring_radius_km
+        edge = [k in (0, t.size - 1) for k in range(t.size)]
+    if np.any(np.isfinite(radii)):
+        k = int(np.nanargmin(radii))
+        track.closest_approach_s = float(candidates[k])
+        track.closest_approach_radius_km = float(radii[k])
+        track.closest_approach_at_edge = bool(edge[k])
+    else:  # no sample has a ring-plane intercept in front of the observer
+        track.closest_approach_s = float(t0)
+        track.closest_approach_radius_km = float("nan")
+        track.closest_approach_at_edge = False
     ca = track.closest_approach_s
 
     crossings = []

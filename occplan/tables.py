@@ -17,7 +17,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import InputError, OutputExistsError
+from .errors import InputError, OutputExistsError, OutputPathError
 
 FORMATS = ("table", "csv", "ecsv", "json")
 
@@ -58,10 +58,74 @@ def check_format(fmt: str) -> str:
     return f
 
 
+# Longest file name most file systems take, in bytes (POSIX NAME_MAX; common practice).
+NAME_MAX_BYTES = 255
+
+
+def _probe_folder(directory: Path, what: str) -> None:
+    """Create and remove a temporary file in ``directory``: the only sure test that the
+    output can be written there (permissions, read-only or virtual file systems)."""
+    try:
+        fd, tmp = tempfile.mkstemp(dir=directory, prefix=".occplan-probe-", suffix=".tmp")
+    except OSError as exc:
+        raise OutputPathError(f"cannot write {what} into folder {str(directory)!r}: "
+                              f"{exc.strerror or exc}; choose another folder") from None
+    os.close(fd)
+    os.unlink(tmp)
+
+
 def check_out(out: str | Path | None, overwrite: bool) -> None:
-    """Refuse an existing output file before any work is done."""
-    if out is not None and Path(out).exists() and not overwrite:
-        raise OutputExistsError(f"{out} exists; pass --overwrite to replace it")
+    """Refuse an output file that exists (without ``overwrite``) or cannot be written, before
+    any work is done.
+
+    Raises
+    ------
+    OutputExistsError, OutputPathError
+    """
+    if out is None:
+        return
+    path = Path(out)
+    if len(path.name.encode("utf-8", "surrogateescape")) > NAME_MAX_BYTES:
+        raise OutputPathError(f"output file name {path.name[:20]}... is longer than "
+                              f"{NAME_MAX_BYTES} bytes; give a shorter name")
+    if str(out).strip() in ("", ".") or path.is_dir():
+        raise OutputPathError(f"output {str(out)!r} is a folder, not a file; give a file name")
+    if path.exists() or path.is_symlink():
+        if not overwrite:
+            raise OutputExistsError(f"{out} exists; pass --overwrite to replace it")
+        if not path.is_file():
+            raise OutputPathError(f"output {out} exists and is not a regular file; give "
+                                  "another name")
+    directory = path.parent if str(path.parent) else Path(".")
+    if not directory.is_dir():
+        raise OutputPathError(f"folder {str(directory)!r} for {path.name} does not exist; "
+                              "create it first")
+    _probe_folder(directory, path.name)
+
+
+def check_out_folder(out: str | Path) -> None:
+    """Refuse an output folder that is a file or whose parent folder cannot be written.
+
+    Raises
+    ------
+    OutputPathError
+    """
+    path = Path(out)
+    if str(out).strip() == "":
+        raise OutputPathError("the output folder name is empty; give a folder name")
+    if len(path.name.encode("utf-8", "surrogateescape")) > NAME_MAX_BYTES:
+        raise OutputPathError(f"output folder name {path.name[:20]}... is longer than "
+                              f"{NAME_MAX_BYTES} bytes; give a shorter name")
+    if path.exists() and not path.is_dir():
+        raise OutputPathError(f"output folder {out} exists and is a file; give a folder name")
+    if path.is_dir():
+        _probe_folder(path, "the output")
+        return
+    parent = path.parent if str(path.parent) else Path(".")
+    if not parent.is_dir():
+        raise OutputPathError(f"folder {str(parent)!r} for {path.name} does not exist; "
+                              "create it first")
+    _probe_folder(parent, path.name)
 
 
 def to_astropy(rows: list[dict], meta: dict, columns: list[str] | None = None):
@@ -169,4 +233,7 @@ def emit(text: str, out: str | Path | None, overwrite: bool) -> None:
         sys.stdout.write(text)
         return
     check_out(out, overwrite)
-    atomic_write(out, lambda fh: fh.write(text.encode("utf-8")))
+    try:
+        atomic_write(out, lambda fh: fh.write(text.encode("utf-8")))
+    except OSError as exc:
+        raise OutputPathError(f"cannot write {out}: {exc.strerror or exc}") from None

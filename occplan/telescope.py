@@ -84,6 +84,10 @@ def _check_keys(data: dict, where: str) -> None:
                                 f"{', '.join(ALLOWED_KEYS)}")
 
 
+# Larger than any telescope built or planned (the largest are about 40 m; common practice).
+MAX_APERTURE_M = 100.0
+
+
 def _validate(p: TelescopeProfile) -> TelescopeProfile:
     from .photometry import band
 
@@ -94,8 +98,8 @@ def _validate(p: TelescopeProfile) -> TelescopeProfile:
         v = getattr(p, key)
         if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
             bad(key, "give a finite number")
-    if p.aperture_m <= 0:
-        bad("aperture_m", "the aperture diameter must be > 0 m")
+    if not 0 < p.aperture_m <= MAX_APERTURE_M:
+        bad("aperture_m", f"the aperture diameter must be > 0 and at most {MAX_APERTURE_M:g} m")
     if not 0 <= p.central_obstruction < 1:
         bad("central_obstruction", "give the secondary's diameter as a fraction in [0, 1)")
     if not 0 < p.throughput <= 1:

@@ -245,3 +245,110 @@ def test_grazing_chord_keeps_both_crossings(eph, saturn):
         assert abs(c.tdb_s - dense[kk]) < 0.03
     sides = {(p.region, p.side) for p in tr.passes}
     assert ("A ring", "ingress") in sides and ("A ring", "egress") in sides
+
+
+def _antipode(ra, dec):
+    return (ra + 180.0) % 360.0, -dec
+
+
+def test_star_opposite_the_planet_crosses_nothing(eph, saturn):
+    """Analytic: the line through a star 180 deg from the planet meets the ring plane near the
+    planet only behind the observer (lambda < 0); that intercept is not an occultation."""
+    ra, dec = saturn_radec(eph, saturn, T_MID)
+    ra_a, dec_a = _antipode(ra, dec)
+    times = window_times(T_MID - 3600, T_MID + 3600, 60.0)
+    g = exact_geometry(eph, saturn, Observer.geocentre(), StarSpec(ra_a, dec_a), times, PLAIN)
+    assert np.all(g["ray_length"] < 0) and not np.any(g["ahead"]) and not np.any(g["valid"])
+    # the virtual intercept behind the observer sweeps through the rings: no crossing for all that
+    assert np.min(np.hypot(g["u_node"], g["u_perp"])) < saturn.ring("A ring").outer_km
+    tr = compute_track(eph, saturn, Observer.geocentre(), StarSpec(ra_a, dec_a), times, PLAIN)
+    assert not tr.crosses_rings and tr.crossings == [] and tr.passes == []
+    assert np.all(np.isnan(tr.ring_radius_km)) and np.all(np.isnan(tr.sky_f_km))
+    assert not np.any(tr.behind_planet)
+    assert np.isnan(tr.closest_approach_radius_km) and tr.closest_approach_s == times[0]
+    assert np.all(np.isfinite(tr.opening_angle_deg))
+
+
+def test_star_on_the_observers_side_of_the_ring_plane_crosses_nothing(eph, saturn):
+    """Analytic: a star 60 deg from the planet with B* of the same sign as B: the line of
+    sight leaves the ring plane behind the observer (lambda < 0) though it passes the planet
+    in front ((P - O).s > 0)."""
+    when = time_from_tdb_s(np.array([T_MID]))
+    n = saturn.pole.unit_vector(when.tdb)[:, 0]
+    obs = eph.observer_km(Observer.geocentre(), when)[:, 0]
+    q = eph.planet_km(saturn, when, barycentre_only=True)[:, 0] - obs
+    q_hat = q / np.linalg.norm(q)
+    side = np.cross(n, q_hat)
+    side /= np.linalg.norm(side)
+    b_sign = np.sign(np.dot(n, -q_hat))  # sign of the opening angle B
+    s = 0.5 * q_hat + np.sqrt(0.75) * (np.cos(0.3) * side + np.sin(0.3) * b_sign * n)
+    s /= np.linalg.norm(s)
+    star = StarSpec(np.degrees(np.arctan2(s[1], s[0])) % 360.0, np.degrees(np.arcsin(s[2])))
+    times = window_times(T_MID - 1800, T_MID + 1800, 300.0)
+    g = exact_geometry(eph, saturn, Observer.geocentre(), star, times, PLAIN)
+    assert np.all(g["ahead"]) and np.all(g["ray_length"] < 0) and not np.any(g["valid"])
+    tr = compute_track(eph, saturn, Observer.geocentre(), star, times, PLAIN)
+    assert np.all(np.isfinite(tr.sky_f_km)) and np.all(np.isnan(tr.ring_radius_km))
+    assert not tr.crosses_rings
+
+
+def test_star_in_the_ring_plane_direction_is_not_edge_on(eph, saturn):
+    """The edge-on refusal uses the observer's B: a star with B* = 0.004 deg far from the
+    planet while |B| = 18 deg is a normal no-crossing result."""
+    t0 = tdb_s_of(parse_utc("2028-10-30T02:00:00Z"))
+    times = window_times(t0, t0 + 7200, 600.0)
+    tr = compute_track(eph, saturn, Observer.geocentre(), StarSpec(220.58, 6.46), times)
+    assert abs(tr.meta["star_elevation_deg"]) < 0.01 < abs(tr.meta["opening_angle_deg"])
+    assert not tr.crosses_rings and tr.crossings == []
+
+
+def test_one_sample_is_a_track(eph, saturn):
+    """A single time has nodes around it (no 'x must be strictly increasing')."""
+    ra, dec = saturn_radec(eph, saturn, T_MID)
+    tr = compute_track(eph, saturn, Observer.geocentre(), offset_star(ra, dec, 10, 0),
+                       np.array([T_MID]), PLAIN)
+    assert tr.ring_radius_km.shape == (1,) and np.isfinite(tr.ring_radius_km[0])
+    assert tr.closest_approach_s == T_MID
+
+
+def test_step_longer_than_the_window_is_one_sample():
+    assert window_times(T_MID, T_MID + 7200, 7201.0).size == 1
+    assert window_times(T_MID, T_MID + 7200, 1e12).size == 1
+    assert window_times(T_MID, T_MID + 7200, 7200.0).size == 2
+
+
+def test_windows_over_the_node_budget_are_refused_before_allocating(eph, saturn):
+    from occplan.errors import InputError
+    from occplan.geometry import MAX_TRACK_NODES, check_node_budget
+
+    span = (MAX_TRACK_NODES + 10) * 120.0
+    with pytest.raises(InputError, match="budget"):
+        check_node_budget(T_MID, T_MID + span)
+    with pytest.raises(InputError, match="budget"):
+        compute_track(eph, saturn, Observer.geocentre(), StarSpec(10.0, 5.0),
+                      np.array([T_MID, T_MID + 150 * 365.25 * 86400]))
+    assert check_node_budget(T_MID, T_MID + 86400.0) == 721
+
+
+def test_nodes_in_blocks_equal_one_evaluation(eph, saturn, monkeypatch):
+    """Evaluating the nodes in blocks changes nothing (same exact geometry per node)."""
+    import occplan.geometry as geometry
+
+    ra, dec = saturn_radec(eph, saturn, T_MID)
+    star = offset_star(ra, dec, 20, 5)
+    times = window_times(T_MID - 3600, T_MID + 3600, 60.0)
+    whole = compute_track(eph, saturn, Observer.geocentre(), star, times, PLAIN)
+    monkeypatch.setattr(geometry, "NODE_BLOCK", 7)
+    blocks = compute_track(eph, saturn, Observer.geocentre(), star, times, PLAIN)
+    assert np.array_equal(whole.ring_radius_km, blocks.ring_radius_km)
+
+
+@pytest.mark.parametrize("field,value", [("parallax_mas", 1e11), ("parallax_mas", np.nan),
+                                         ("pm_ra_mas_yr", np.inf), ("rv_km_s", np.nan),
+                                         ("pm_dec_mas_yr", -2e5)])
+def test_unphysical_star_motion_is_refused(eph, saturn, field, value):
+    from occplan.errors import InputError
+
+    star = replace(StarSpec(10.0, 5.0), **{field: value})
+    with pytest.raises(InputError, match="finite|beyond any star"):
+        compute_track(eph, saturn, Observer.geocentre(), star, np.array([T_MID, T_MID + 60]))

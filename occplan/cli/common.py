@@ -36,9 +36,24 @@ def star(star_text=None, pm_ra=0.0, pm_dec=0.0, parallax=0.0, rv=0.0, star_epoch
     if star_text is None:
         raise InputError('give the star: --star "RA DEC" (or --catalog FILE --star-id ID)')
     ra, dec = parse_star_position(star_text)
+    _check_motion(pm_ra, pm_dec, parallax, rv)
     return StarSpec(ra_deg=ra, dec_deg=dec, pm_ra_mas_yr=pm_ra, pm_dec_mas_yr=pm_dec,
                     parallax_mas=parallax, rv_km_s=rv, epoch_jd_tt=parse_epoch_jd_tt(star_epoch),
                     name=star_text, vmag=check_magnitude(vmag, "V"), kmag=check_magnitude(kmag, "K"))
+
+
+def _check_motion(pm_ra, pm_dec, parallax, rv) -> None:
+    """Physical bounds of --pm-ra/--pm-dec/--parallax/--rv (see occplan.geometry.check_star)."""
+    from ..geometry import MAX_PARALLAX_MAS, MAX_PROPER_MOTION_MAS_YR, MAX_RADIAL_VELOCITY_KM_S
+
+    for option, value, low, high, unit in (
+            ("--pm-ra", pm_ra, -MAX_PROPER_MOTION_MAS_YR, MAX_PROPER_MOTION_MAS_YR, "mas/yr"),
+            ("--pm-dec", pm_dec, -MAX_PROPER_MOTION_MAS_YR, MAX_PROPER_MOTION_MAS_YR, "mas/yr"),
+            ("--parallax", parallax, 0.0, MAX_PARALLAX_MAS, "mas"),
+            ("--rv", rv, -MAX_RADIAL_VELOCITY_KM_S, MAX_RADIAL_VELOCITY_KM_S, "km/s")):
+        if not low <= value <= high:
+            raise InputError(f"{option} {value:g} {unit} is outside {low:g}..{high:g} {unit}, the "
+                             "range of real stars" + ("; pass 0 if unknown" if option == "--parallax" else ""))
 
 
 def observer(site=None, sites=None, lat=None, lon=None, height=0.0, geocentre=False,
@@ -84,6 +99,10 @@ def event_report(opts: dict):
     o = opts
     if o["sigma"] is not None and o["sigma"] < 0:
         raise InputError(f"--sigma {o['sigma']} g/cm^2 is negative")
+    from ..chords import check_chord_step
+
+    t0_s, t1_s = window(o["start"], o["end"])
+    check_chord_step(t0_s, t1_s, o["step"])
     profile = o["telescope"]
     if profile is None and o["site"] is not None and o["sites"] is not None:
         profile = find_site(o["sites"], o["site"]).telescope  # the site's own, as find/rank use
@@ -95,7 +114,7 @@ def event_report(opts: dict):
              o["vmag"], o["kmag"], o["catalog"], o["star_id"]),
         observer(o["site"], o["sites"], o["lat"], o["lon"], o["height"], o["geocentre"],
                  o["observer_id"]),
-        window(o["start"], o["end"]), telescope=tel, kernels=o["kernel"],
+        (t0_s, t1_s), telescope=tel, kernels=o["kernel"],
         deflection=not o["no_deflection"], barycentre_only=o["barycentre"], step_s=o["step"],
         max_order=o["max_order"], sigma_g_cm2=o["sigma"],
         samples_per_wavelength=o["samples_per_wavelength"],

@@ -23,6 +23,13 @@ def register(app: typer.Typer) -> None:
         Example: occplan demo --out occplan-demo-output
         """
         from ..demo import run_demo
+        from ..errors import InputError
+        from ..tables import check_out_folder
+
+        if top is not None and top < 1:
+            raise InputError(f"--top {top}: give at least 1 event per planet (or leave it out "
+                             "for the campaign's number)")
+        check_out_folder(out)
 
         res = run_demo(out, overwrite=overwrite, top_events=top)
         typer.echo(f"occplan demo: wrote {len(res.files)} files into {res.out_dir}/")

@@ -7,6 +7,7 @@ stderr and exit code 2 (so typer's CliRunner sees the same behaviour as the cons
 from __future__ import annotations
 
 import functools
+import math
 import sys
 import warnings
 from pathlib import Path
@@ -58,6 +59,43 @@ Overwrite = Annotated[bool, typer.Option("--overwrite", help="Allow --out to rep
 FORMATS = ("table", "csv", "ecsv", "json")
 
 
+def _option_names(func) -> dict:
+    """Parameter name -> its command-line spelling (``pm_ra`` -> ``--pm-ra``), from the
+    typer.Option declarations in the function's annotations."""
+    import typing
+
+    names = {}
+    try:
+        hints = typing.get_type_hints(func, include_extras=True)
+    except Exception:  # unresolvable annotations: fall back to the parameter names
+        return names
+    for name, hint in hints.items():
+        for meta in getattr(hint, "__metadata__", ()):
+            decls = [d for d in (getattr(meta, "param_decls", None) or ()) if d.startswith("--")]
+            if decls:
+                names[name] = decls[0]
+    return names
+
+
+def check_finite_options(values: dict, names: dict | None = None) -> None:
+    """Refuse NaN or infinite numbers in any numeric option, naming the option.
+
+    ``names`` maps parameter names to their options (default: ``--`` + the name with dashes).
+
+    Raises
+    ------
+    InputError
+    """
+    from ..errors import InputError
+
+    for name, value in values.items():
+        items = value if isinstance(value, (list, tuple)) else [value]
+        for v in items:
+            if isinstance(v, float) and not math.isfinite(v):
+                option = (names or {}).get(name, "--" + name.replace("_", "-"))
+                raise InputError(f"{option} {v} is not a finite number; give a plain number")
+
+
 def user_errors(func):
     """Decorator for command functions: user errors become one stderr line and exit 2."""
 
@@ -68,6 +106,7 @@ def user_errors(func):
             # time scale and says so in `occplan info`.
             warnings.filterwarnings("ignore", message=".*finals.*")
             try:
+                check_finite_options(kwargs, _option_names(func))
                 return func(*args, **kwargs)
             except OccplanError as exc:
                 print(f"occplan: error: {exc}", file=sys.stderr)

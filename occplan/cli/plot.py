@@ -7,7 +7,8 @@ from typing import Annotated
 
 import typer
 
-from ..errors import InputError, OutputExistsError
+from ..errors import InputError
+from ..tables import check_out
 from . import common
 from . import options as o
 
@@ -24,11 +25,7 @@ def _check_figure_out(out: Path, overwrite: bool, panel: str) -> None:
         raise InputError(f"--out {out} must end in .png or .pdf")
     if panel not in PANEL_CHOICES:
         raise InputError(f"--panel {panel!r} is not one of {', '.join(PANEL_CHOICES)}")
-    if out.exists() and not overwrite:
-        raise OutputExistsError(f"{out} exists; pass --overwrite to replace it")
-    parent = out.parent if str(out.parent) else Path(".")
-    if not parent.is_dir():
-        raise InputError(f"folder {str(parent)!r} of --out does not exist")
+    check_out(out, overwrite)  # a folder, a missing folder, no permission, an existing file
 
 
 def register(app: typer.Typer) -> None:
