@@ -83,7 +83,8 @@ class EventReport:
             "body": tr.body.name,
             "star": tr.star.describe(),
             "observer": tr.observer.describe(),
-            "closest_approach": {"time_utc": _utc(tr.closest_approach_s),
+            "closest_approach": {"time_utc": (_utc(tr.closest_approach_s)
+                                              if np.isfinite(tr.closest_approach_radius_km) else None),
                                  "ring_radius_km": tr.closest_approach_radius_km,
                                  "at_window_edge": tr.closest_approach_at_edge},
             "opening_angle_deg": tr.meta["opening_angle_deg"],

@@ -460,9 +460,10 @@ def radius_time(report, ax=None, max_labels: int = DEFAULT_MAX_LABELS):
                 zorder=3)
     _zone_marks(ax, report, max_labels)
 
-    top = max(1.1 * body.outer_ring_km, float(np.nanmax(r)) if r.size else 0.0)
+    finite = r[np.isfinite(r)]  # nan where the ray meets the ring plane behind the observer
+    top = max(1.1 * body.outer_ring_km, float(finite.max()) if finite.size else 0.0)
     # the bottom of a central chord is behind the planet: show it down to half the inner ring
-    low = float(np.nanmin(r)) - 0.05 * body.outer_ring_km if r.size else 0.0
+    low = float(finite.min()) - 0.05 * body.outer_ring_km if finite.size else 0.0
     bottom = max(0.0, min(0.9 * body.inner_ring_km, max(low, 0.5 * body.inner_ring_km)))
     ax.set_ylim(bottom, min(top, 1.25 * body.outer_ring_km))
     if x.size:
