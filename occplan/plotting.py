@@ -449,8 +449,6 @@ def radius_time(report, ax=None, max_labels: int = DEFAULT_MAX_LABELS):
     for reg in body.rings:
         ax.axhspan(reg.inner_km, reg.outer_km, color=colours[reg.name], alpha=0.45, lw=0,
                    zorder=0, gid=f"region:{reg.name}")
-        ax.text(1.005, 0.5 * (reg.inner_km + reg.outer_km), reg.name, fontsize=7, va="center",
-                transform=ax.get_yaxis_transform(), clip_on=False)
     for i, (a, b) in enumerate(report.hidden):
         ax.axvspan(*_to_dates(report, [a, b]), color=HIDDEN_COLOUR, alpha=0.55, lw=0, zorder=0.5,
                    hatch="//", gid="planet-hidden", label="planet hides the star" if i == 0 else None)
@@ -466,6 +464,14 @@ def radius_time(report, ax=None, max_labels: int = DEFAULT_MAX_LABELS):
     low = float(finite.min()) - 0.05 * body.outer_ring_km if finite.size else 0.0
     bottom = max(0.0, min(0.9 * body.inner_ring_km, max(low, 0.5 * body.inner_ring_km)))
     ax.set_ylim(bottom, min(top, 1.25 * body.outer_ring_km))
+    # region names beside the axis, spread so that narrow rings' names do not overlap
+    lo_y, hi_y = ax.get_ylim()
+    regs = sorted((r for r in body.rings if lo_y <= 0.5 * (r.inner_km + r.outer_km) <= hi_y),
+                  key=lambda r: r.inner_km)
+    ys = _spread([0.5 * (r.inner_km + r.outer_km) for r in regs], ax, min_gap_fraction=0.03)
+    for reg, y in zip(regs, ys):
+        ax.text(1.005, y, reg.name, fontsize=7, va="center", transform=ax.get_yaxis_transform(),
+                clip_on=False, gid=f"region-label:{reg.name}")
     if x.size:
         ax.set_xlim(x[0], x[-1])
     ax.yaxis.set_major_formatter(KM)
