@@ -153,9 +153,10 @@ def earth_orientation(tdb_s, lat_deg: float | None = None) -> dict:
     -------
     dict
         ``table`` (file and package version), ``observed_until`` and ``predicted_until``
-        (UTC dates), ``status`` ('observed', 'IERS prediction' or 'past the IERS
-        predictions'), ``days_past_predictions``, ``ut1_sigma_s``, ``polar_motion_sigma_arcsec``
-        and ``site_sigma_m`` (1 sigma; None without a site), and a one-line ``note``.
+        (UTC dates), ``status`` ('observed', 'IERS prediction', 'past the IERS predictions'
+        or 'before the IERS table'), ``days_past_predictions``, ``ut1_sigma_s``,
+        ``polar_motion_sigma_arcsec`` and ``site_sigma_m`` (1 sigma; None without a site or
+        before the table), and a one-line ``note``.
 
     Notes
     -----
@@ -170,11 +171,21 @@ def earth_orientation(tdb_s, lat_deg: float | None = None) -> dict:
     import astropy_iers_data
 
     fin = read_finals()
+    # UTC MJD of the latest sample to a minute (TT - UTC taken as today's 69.184 s): enough to
+    # place it in the table.
     t_utc_mjd = float(np.max(np.atleast_1d(tdb_s))) / 86400.0 + 51544.5 - 69.184 / 86400.0
     observed = fin["utc_mjd"][fin["ut1_flag"] == "I"]
     observed_end = float(observed[-1]) if observed.size else float(fin["utc_mjd"][0])
     table_end = float(fin["utc_mjd"][-1])
     past = t_utc_mjd - table_end
+    if t_utc_mjd < float(fin["utc_mjd"][0]):
+        return {"table": f"IERS finals2000A.all (astropy-iers-data {astropy_iers_data.__version__})",
+                "observed_until": _mjd_date(observed_end), "predicted_until": _mjd_date(table_end),
+                "status": "before the IERS table", "days_past_predictions": 0.0,
+                "ut1_sigma_s": None, "polar_motion_sigma_arcsec": None, "site_sigma_m": None,
+                "note": (f"UT1 before the IERS table ({_mjd_date(fin['utc_mjd'][0])}) comes from "
+                         "skyfield's historical delta-T splines, and polar motion is held at its first "
+                         "value (an error up to about 15 m at a site)")}
     if t_utc_mjd <= observed_end:
         status = "observed"
     elif past <= 0:
