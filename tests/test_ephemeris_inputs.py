@@ -181,3 +181,44 @@ def test_info_names_the_kernel_its_coverage_and_earth_orientation(cli):
     assert "de440.bsp" in res.output and "1549-12-31" in res.output and "2650-01-25" in res.output
     assert "finals2000A" in res.output and "polar motion" in res.output
     assert "under 1 mm" not in res.output
+
+
+# --------------------------------------------------------------------------- round trips
+
+from hypothesis import given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+
+def _sexa(value, places):
+    """(sign, whole, minutes, seconds) of a non-negative or signed value, seconds rounded."""
+    sign = "-" if value < 0 else "+"
+    total = round(abs(value) * 3600.0, places)
+    whole, rest = divmod(total, 3600.0)
+    minutes, seconds = divmod(rest, 60.0)
+    return sign, int(whole), int(minutes), seconds
+
+
+@settings(max_examples=300, deadline=None)
+@given(ra=st.floats(0.0, 359.999), dec=st.floats(-89.999, 89.999),
+       form=st.sampled_from(["units", "spaces", "colons", "degrees"]))
+def test_star_position_round_trip(ra, dec, form):
+    """Formatted as users write them, the position reads back within the printed precision
+    and equals astropy's reading of the same fields (Angle)."""
+    from astropy.coordinates import Angle
+
+    _, h, m, s = _sexa(ra / 15.0, 4)
+    sg, d, dm, ds = _sexa(dec, 3)
+    if s >= 60.0 or ds >= 60.0 or h >= 24:
+        return  # rounding carried into the next field; not a form a user types
+    ra_fields, dec_fields = f"{h}h{m:02d}m{s:07.4f}s", f"{sg}{d}d{dm:02d}m{ds:06.3f}s"
+    text = {"units": f"{ra_fields} {dec_fields}",
+            "spaces": f"{h:02d} {m:02d} {s:07.4f} {sg}{d:02d} {dm:02d} {ds:06.3f}",
+            "colons": f"{h:02d}:{m:02d}:{s:07.4f} {sg}{d:02d}:{dm:02d}:{ds:06.3f}",
+            "degrees": f"{ra:.9f} {dec:.9f}"}[form]
+    got_ra, got_dec = parse_star_position(text)
+    tol = 1e-8 if form == "degrees" else 1e-6  # half the last printed digit, in degrees
+    assert abs(got_ra - ra) < tol + 0.5e-4 * 15.0 / 3600.0 * (form != "degrees")
+    assert abs(got_dec - dec) < tol + 0.5e-3 / 3600.0 * (form != "degrees")
+    if form != "degrees":
+        ref_ra, ref_dec = Angle(ra_fields, unit="hourangle").deg, Angle(dec_fields).deg
+        assert abs(got_ra - ref_ra) < 1e-9 and abs(got_dec - ref_dec) < 1e-9
