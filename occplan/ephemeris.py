@@ -67,6 +67,11 @@ def _finals_path() -> str:
     return str(astropy_iers_data.IERS_A_FILE)
 
 
+def _num(field: str) -> float:
+    """A fixed-width number, nan where the field is blank."""
+    return float(field) if field.strip() else float("nan")
+
+
 @lru_cache(maxsize=1)
 def read_finals() -> dict:
     """The IERS finals2000A table of ``astropy-iers-data`` as arrays (rows with UT1 only).
@@ -94,9 +99,9 @@ def read_finals() -> dict:
             for line in f:
                 if len(line) < 68 or not line[58:68].strip():
                     continue
-                rows.append((float(line[7:15]), float(line[18:27]), float(line[37:46]),
-                             float(line[27:36] or "nan"), float(line[46:55] or "nan"),
-                             float(line[58:68]), float(line[68:78] or "nan"), line[57]))
+                rows.append((float(line[7:15]), _num(line[18:27]), _num(line[37:46]),
+                             _num(line[27:36]), _num(line[46:55]), float(line[58:68]),
+                             _num(line[68:78]), line[57]))
     except (OSError, ValueError, UnicodeDecodeError) as exc:
         raise DataFileError(f"cannot read the IERS table {path!r} ({exc}); reinstall the "
                             "astropy-iers-data package") from None
@@ -293,7 +298,7 @@ def _check_kernel(kernel, size_bytes: int) -> None:
 
 _SPLIT = re.compile(r"^([\d-]+[Zz]?)(?:[Tt ]\s*(.*))?$")
 _CAL = re.compile(r"^(\d{4})-(\d{2})-(\d{2})$")
-_ORD = re.compile(r"^(\d{4})-?(\d{3})$")
+_ORD = re.compile(r"^(\d{4})-(\d{3})$")
 _CLOCK = re.compile(r"^(\d{1,2})(?::(\d{2})(?::(\d{2}(?:\.\d*)?))?)?$")
 _ZONE = re.compile(r"(?:Z|UTC|UT|([+-])(\d{2})(?::?(\d{2}))?)$", re.IGNORECASE)
 _TIME_HELP = "use UTC ISO 8601 like 2027-03-01T04:05:06Z (or 2027-060T04:05:06Z)"
