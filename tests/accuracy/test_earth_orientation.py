@@ -82,8 +82,14 @@ def test_leap_seconds_match_astropy():
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         table = LeapSeconds.auto_open()
-    ref = {float(m) + 2400000.5: float(v) for m, v in zip(table["mjd"], table["tai_utc"])
-           if m >= 41499}  # from 1972-07-01, where the integer-second UTC starts
+    from astropy.time import Time
+
+    # Leap seconds take effect at 0h UTC on the first of a month; the table's form varies
+    # with its source (IERS file or ERFA's built-in list) but always has year and month.
+    ref = {}
+    for y, m, v in zip(table["year"], table["month"], table["tai_utc"]):
+        if (int(y), int(m)) >= (1972, 7):  # where the integer-second UTC steps start
+            ref[float(Time(f"{int(y)}-{int(m):02d}-01", scale="utc").utc.jd)] = float(v)
     ts = timescale()
     ours = dict(zip(map(float, ts.leap_dates), map(float, ts.leap_offsets)))
     assert ours == {k: v for k, v in ref.items()}
