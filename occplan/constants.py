@@ -10,4 +10,6 @@ GRAVITATIONAL_CONSTANT_CGS = 6.67430e-8  # same value in cm^3 g^-1 s^-2
 SECONDS_PER_DAY = 86400.0
 DAYS_PER_JULIAN_CENTURY = 36525.0
 J2000_JD_TDB = 2451545.0  # 2000-01-01T12:00:00 TDB
-GM_SUN_KM3_S2 = 1.32712440040944e11  # DE421 header value (Folkner et al. 2008, IPN PR 42-178)
+# DE440 value (Park et al. 2021, AJ 161, 105; from memory).  DE421's 1.32712440040944e11
+# (Folkner et al. 2008) differs by 3e-12 relative: nothing measurable in a deflection.
+GM_SUN_KM3_S2 = 1.32712440041279419e11

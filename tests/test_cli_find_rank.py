@@ -132,7 +132,7 @@ def test_csv_and_table(cli, files):
     ("source_id,ra,dec\n1,10,5\n", [], "lacks column"),
     ("source_id,ra,dec,pmra,pmdec,parallax\n1,10,x5,0,0,0\n", [], "not a number"),
     ("source_id,ra,dec,pmra,pmdec,parallax\n", [], "no rows"),
-    (None, ["--start", "2060-01-01", "--end", "2060-02-01"], "coverage"),
+    (None, ["--start", "2651-01-01", "--end", "2651-02-01"], "coverage"),  # DE440 ends 2650
     (None, ["--site", "Nowhere"], "no site"),
     (None, ["--format", "xml"], "unknown format"),
 ])

@@ -57,7 +57,7 @@ def test_no_crossing_is_a_normal_result(cli):
     (["--star", "12 ab", "--geocentre", *WINDOW], "cannot read star position"),
     (["--star", STAR, "--lat", "95", "--lon", "0", *WINDOW], "latitude"),
     (["--star", STAR, "--geocentre", "--start", "2027-06-15T03:00Z", "--end", "2027-06-15T00:00Z"], "not after"),
-    (["--star", STAR, "--geocentre", "--start", "2060-01-01", "--end", "2060-01-02"], "coverage"),
+    (["--star", STAR, "--geocentre", "--start", "2651-01-01", "--end", "2651-01-02"], "coverage"),  # DE440 ends 2650
     (["--star", STAR, "--geocentre", *WINDOW, "--kernel", "/nonexistent.bsp"], "not found"),
     (["--star", STAR, "--observer-id", "-82", *WINDOW], "NAIF id -82"),
     (["--star", STAR, *WINDOW], "exactly one observer"),
@@ -74,8 +74,8 @@ def test_bad_input_one_line_exit_2(cli, args, needle):
 
 def test_bad_input_leaves_no_file(cli, tmp_path):
     out = tmp_path / "x.csv"
-    res = cli("chord", "--star", STAR, "--geocentre", "--start", "2060-01-01", "--end",
-              "2060-01-02", "--out", out, "--format", "csv")
+    res = cli("chord", "--star", STAR, "--geocentre", "--start", "2651-01-01", "--end",
+              "2651-01-02", "--out", out, "--format", "csv")
     assert res.exit_code == 2 and not out.exists()
     assert list(tmp_path.iterdir()) == []
 
@@ -96,6 +96,6 @@ def test_aspect_bodies_info_version(cli):
     res = cli("bodies", "--body", "saturn")
     assert "B ring" in res.output and "Mimas" in res.output
     res = cli("info")
-    assert res.exit_code == 0 and "de421.bsp" in res.output and "Earth orientation" in res.output
+    assert res.exit_code == 0 and "de440.bsp" in res.output and "Earth orientation" in res.output
     res = cli("--version")
     assert res.exit_code == 0 and "occplan" in res.output

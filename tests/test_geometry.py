@@ -204,8 +204,9 @@ def test_star_far_from_rings_is_a_normal_result(eph, saturn):
     assert tr.closest_approach_radius_km > saturn.outer_ring_km
 
 
-def test_window_outside_de421_raises(eph, saturn):
-    t = tdb_s_of(parse_utc("2053-12-01T00:00:00Z"))
+def test_window_outside_de440_raises(eph, saturn):
+    # DE440 covers 1549-12-31..2650-01-25 TDB (Park et al. 2021, AJ 161, 105)
+    t = tdb_s_of(parse_utc("2650-02-01T00:00:00Z"))
     with pytest.raises(CoverageError, match="coverage"):
         compute_track(eph, saturn, Observer.geocentre(), StarSpec(10.0, 5.0),
                       window_times(t, t + 3600, 60.0))

@@ -145,8 +145,8 @@ def test_bad_inputs(eph, saturn):
         ob.observing_conditions(eph, saturn, SITE, jd, min_altitude_deg=120.0)
     with pytest.raises(InputError):
         ob.observing_conditions(eph, saturn, SITE, [jd, np.nan])
-    with pytest.raises(CoverageError):  # DE421 ends 2053-10-08
-        ob.observing_conditions(eph, saturn, SITE, _jd("2060-01-01T00:00:00Z"))
+    with pytest.raises(CoverageError):  # DE440 ends 2650-01-25 (Park et al. 2021)
+        ob.observing_conditions(eph, saturn, SITE, _jd("2650-02-01T00:00:00Z"))
 
 
 # --------------------------------------------------------------------------- cautions

@@ -142,7 +142,7 @@ def test_bad_windows_and_observers(path_nodes):
     body, _, t0, t1 = path_nodes
     star = StarSpec(10.0, 5.0, name="x")
     with pytest.raises(CoverageError, match="coverage"):
-        search_candidates(body, [star], ("2060-01-01", "2060-02-01"))
+        search_candidates(body, [star], ("2651-01-01", "2651-02-01"))  # DE440 ends 2650
     with pytest.raises(InputError, match="not after"):
         search_candidates(body, [star], (t1, t0))
     with pytest.raises(InputError, match="observer"):

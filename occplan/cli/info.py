@@ -1,4 +1,4 @@
-"""`occplan info`: versions, kernels and their coverage, time-scale data."""
+"""`occplan info`: versions, kernels and their coverage (each kernel checked), time-scale data."""
 
 from __future__ import annotations
 
@@ -21,6 +21,7 @@ def register(app: typer.Typer) -> None:
         Example: occplan info --kernel sat441.bsp
         """
         import astropy
+        import astropy_iers_data
         import numpy
         import scipy
         import shapely
@@ -31,6 +32,7 @@ def register(app: typer.Typer) -> None:
             "occplan": __version__, "python": platform.python_version(),
             "packages": {"skyfield": skyfield.__version__, "numpy": numpy.__version__,
                          "scipy": scipy.__version__, "astropy": astropy.__version__,
+                         "astropy-iers-data": astropy_iers_data.__version__,
                          "shapely": shapely.__version__},
             "kernels": eph.kernels(),
             **time_scale_info(),
@@ -41,8 +43,10 @@ def register(app: typer.Typer) -> None:
         typer.echo(f"occplan {data['occplan']} (Python {data['python']})")
         typer.echo("packages: " + ", ".join(f"{k} {v}" for k, v in data["packages"].items()))
         for k in data["kernels"]:
-            typer.echo(f"kernel {k['file']}: {k['start_utc']} .. {k['end_utc']}, "
-                       f"NAIF ids {', '.join(map(str, k['targets']))}  ({k['path']})")
+            typer.echo(f"kernel {k['file']} ({k['source']}): covers {k['start_tdb']} .. "
+                       f"{k['end_tdb']} TDB, NAIF ids {', '.join(map(str, k['targets']))}  "
+                       f"({k['path']})")
         typer.echo(f"time scale: {data['time_scale']}; TAI-UTC {data['tai_minus_utc_s']:.0f} s "
                    f"since {data['last_leap_second_utc']}")
         typer.echo(f"Earth orientation: {data['earth_orientation']}")
+        typer.echo(f"Earth orientation today: {data['earth_orientation_now']}")

@@ -10,7 +10,7 @@ References used (each named beside its check):
   points from the moon to the planet (IAU convention for synchronous satellites).
 - Laplace resonance of Io, Europa, Ganymede: varpi-dot(Io) = 2 n_Europa - n_Io
   (Murray & Dermott 1999, sec. 8.16).
-- scipy.optimize.brentq for Kepler's equation; DE421 (jplephem) for the Sun direction.
+- scipy.optimize.brentq for Kepler's equation; DE440 (jplephem) for the Sun direction.
 """
 
 import numpy as np
@@ -19,7 +19,7 @@ from jplephem.spk import SPK
 from scipy.optimize import brentq
 
 from occplan.bodies import MeanElements, get_body
-from occplan.ephemeris import de421_path
+from occplan.ephemeris import default_kernel_path
 from occplan.mean_orbits import (
     barycentre_offset_km,
     correction_residual_km,
@@ -222,10 +222,10 @@ def test_titan_shadow_transit_2009():
     Then the Saturn->Titan direction lies within the angle of Saturn's radius seen from
     Titan, asin(60268/1.2e6) = 2.8 deg, plus Titan's own 0.12 deg, of the Saturn->Sun
     direction.  Tolerance 3.5 deg allows ~0.5 deg for the rounded event time.
-    DE421 (independent ephemeris) gives the Sun direction.
+    DE440 (independent ephemeris) gives the Sun direction.
     """
     t = 2454886.9461875
-    kernel = SPK.open(de421_path())
+    kernel = SPK.open(default_kernel_path())
     try:
         sun = kernel[0, 10].compute(t) - kernel[0, 6].compute(t)
     finally:

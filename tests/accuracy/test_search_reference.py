@@ -1,6 +1,6 @@
 """The catalog search against an independent brute-force computation through skyfield.
 
-Reference: skyfield alone (its own DE421 loader, ``Star.observe`` from the geocentre, the
+Reference: skyfield alone (its own loader of the same DE440 file, ``Star.observe`` from the geocentre, the
 Saturn barycentre at the ring time), with the light time iterated to the ring-plane
 intercept, the sky-plane offsets and the outer-ring ellipse distance measured by shapely on
 a 4,000-vertex polygon (its chord error is 0.04 km at 140,000 km).  occplan runs with the planet deflection off and the barycentre
@@ -24,7 +24,7 @@ from shapely.geometry import Polygon
 
 from occplan.bodies import get_body
 from occplan.catalogs import StarTable
-from occplan.ephemeris import StarSpec, de421_path, parse_utc, tdb_s_of
+from occplan.ephemeris import StarSpec, default_kernel_path, parse_utc, tdb_s_of
 from occplan.geometry import Corrections
 from occplan.search import EARTH_RADIUS_KM, search_candidates
 
@@ -42,7 +42,7 @@ def sky():
     from skyfield.jpllib import SpiceKernel
 
     ts = load.timescale(builtin=True)
-    kernel = SpiceKernel(de421_path())
+    kernel = SpiceKernel(default_kernel_path())
     yield ts, kernel["earth"], kernel["saturn barycenter"]
     kernel.close()
 

@@ -1,10 +1,10 @@
-"""The star-minus-planet sky-plane offset against astropy on the same DE421 kernel.
+"""The star-minus-planet sky-plane offset against astropy on the same DE440 kernel.
 
-Reference library: astropy, offline, with the DE421 file occplan uses and IERS downloads off
+Reference library: astropy, offline, with the DE440 file occplan uses and IERS downloads off
 (REFERENCES.md).  The star is put on the rings' long axis, so its ring-plane intercept lies at
 the planet's distance and occplan's light time (to the intercept) equals the light time to the
 centre; occplan runs with the deflection off and the barycentre uncorrected (astropy's
-'saturn' in DE421 is the barycentre).  Offsets are taken in the star-centred frame, like
+'saturn' in DE440 is the barycentre).  Offsets are taken in the star-centred frame, like
 occplan's f (east) and g (north) at the star's direction.
 
 1. Astrometric: astropy's own ephemeris reading (get_body_barycentric, light time iterated
@@ -25,7 +25,7 @@ import warnings
 import numpy as np
 import pytest
 
-from occplan.ephemeris import Observer, StarSpec, de421_path, parse_utc, tdb_s_of
+from occplan.ephemeris import Observer, StarSpec, default_kernel_path, parse_utc, tdb_s_of
 from occplan.geometry import Corrections, exact_geometry
 
 from ..test_geometry import saturn_radec
@@ -38,13 +38,13 @@ CASES = [("2027-06-15T02:00:00", 90000.0), ("2031-11-02T10:00:00", -60000.0),
 
 
 @pytest.fixture(scope="module")
-def astropy_de421():
+def astropy_de440():
     from astropy.coordinates import solar_system_ephemeris
     from astropy.utils import iers
 
     iers.conf.auto_download = False
     iers.conf.auto_max_age = None
-    with solar_system_ephemeris.set(de421_path()):
+    with solar_system_ephemeris.set(default_kernel_path()):
         yield
 
 
@@ -69,7 +69,7 @@ def _offset_km(star_coord, planet_coord, dist):
 
 
 @pytest.mark.parametrize("utc,offset_km", CASES)
-def test_astrometric_offset_matches_astropy(eph, saturn, astropy_de421, utc, offset_km):
+def test_astrometric_offset_matches_astropy(eph, saturn, astropy_de440, utc, offset_km):
     import astropy.units as u
     from astropy.coordinates import SkyCoord, get_body_barycentric
     from astropy.time import Time
@@ -90,7 +90,7 @@ def test_astrometric_offset_matches_astropy(eph, saturn, astropy_de421, utc, off
 
 
 @pytest.mark.parametrize("utc,offset_km", CASES)
-def test_apparent_offset_within_the_aberration_difference(eph, saturn, astropy_de421, utc,
+def test_apparent_offset_within_the_aberration_difference(eph, saturn, astropy_de440, utc,
                                                           offset_km):
     import astropy.units as u
     from astropy.coordinates import GCRS, SkyCoord, get_body, get_sun

