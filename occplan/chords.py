@@ -188,7 +188,7 @@ def aspect(body, observer: Observer, window, step_s: float = 3600.0, kernels=Non
         for i in range(times.size)
     ]
     meta = {"occplan_version": __version__, "body": body.name, "observer": observer.describe(),
-            "kernels": [k["file"] for k in eph.kernels()],
+            "kernels": eph.kernel_labels(),
             "planet_centre": "system barycentre (uncorrected)" if barycentre_only
             else eph.planet_centre_source(body),
             "step_s": step_s,

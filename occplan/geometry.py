@@ -753,15 +753,13 @@ def track_meta(eph, body, observer, star, corrections, node_geo, t, node_step_s,
         centre = "barycentre corrected by satellite mean orbits"
         residual = float(correction_residual_km(body))
     notes = []
+    eo = None
     if observer.kind == "site":
-        from .ephemeris import timescale
+        from .ephemeris import earth_orientation
 
-        table_end_tt = float(timescale().delta_t_table[0][-1])
-        if J2000_TDB_JD + t[-1] / SECONDS_PER_DAY > table_end_tt:
-            notes.append(
-                "UT1 (delta T) is extrapolated past the built-in table's end "
-                f"({utc_iso(table_end_tt, 0)[:10]}): each second of delta-T error moves the site "
-                "by up to 0.46 km along the Earth's rotation, and the chord with it")
+        eo = earth_orientation(t, observer.lat_deg)
+        if eo["status"] != "observed":
+            notes.append(eo["note"])
     return {
         "occplan_version": __version__,
         "body": body.name,
@@ -771,7 +769,8 @@ def track_meta(eph, body, observer, star, corrections, node_geo, t, node_step_s,
         "start_utc": utc_iso(time_from_tdb_s(t[0])),
         "end_utc": utc_iso(time_from_tdb_s(t[-1])),
         "samples": int(t.size),
-        "kernels": [k["file"] for k in eph.kernels()],
+        "kernels": eph.kernel_labels(),
+        "earth_orientation": eo,
         "corrections": {
             "light_time": "iterated to the ring-plane intercept",
             "aberration": "none (astrometric star and planet)",

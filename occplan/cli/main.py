@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import importlib
 import sys
-import warnings
 
 import typer
 from typer.core import TyperCommand, TyperGroup
@@ -99,7 +98,6 @@ def run(argv: list[str] | None = None) -> None:
     already one stderr line and exit 2; usage errors (unknown options or commands, values of
     the wrong type) are one line too (:class:`_OneLineCommand`, :class:`_OneLineGroup`).
     """
-    warnings.filterwarnings("ignore", message=".*finals.*", category=UserWarning)
     app = build_app()
     try:
         app(args=argv)

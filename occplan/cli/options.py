@@ -102,9 +102,6 @@ def user_errors(func):
     @functools.wraps(func)
     def wrapper(*args, **kwargs):
         with warnings.catch_warnings():
-            # skyfield-data's finals file carries an expiry date; occplan uses the built-in
-            # time scale and says so in `occplan info`.
-            warnings.filterwarnings("ignore", message=".*finals.*")
             try:
                 check_finite_options(kwargs, _option_names(func))
                 return func(*args, **kwargs)

