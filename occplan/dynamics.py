@@ -151,17 +151,21 @@ def satellite_rates_rad_s(body: Body, satellite: Satellite):
 _RECURRENCE_START = 120  # below this j scipy's hyp2f1 is reliable for every alpha < 1
 
 
-def _hyp_form(s, j, alpha, deriv):
-    """b_s^(j)(alpha) (deriv=0) or d/dalpha of it (deriv=1) from the hypergeometric form."""
+def _hyp_pair(s, j, alpha):
+    """b_s^(j)(alpha) and d/dalpha of it from the hypergeometric form (two hyp2f1 calls)."""
     z = alpha * alpha
     lead = np.exp(gammaln(s + j) - gammaln(s) - gammaln(j + 1.0))
     f = hyp2f1(s, s + j, j + 1.0, z)
-    if deriv == 0:
-        return 2.0 * lead * alpha**j * f
     fz = s * (s + j) / (j + 1.0) * hyp2f1(s + 1.0, s + j + 1.0, j + 2.0, z)
     with np.errstate(divide="ignore", invalid="ignore"):
         low = np.where(j > 0, j * alpha ** np.maximum(j - 1.0, 0.0), 0.0)
-    return 2.0 * lead * (low * f + alpha**j * 2.0 * alpha * fz)
+    aj = alpha**j
+    return 2.0 * lead * aj * f, 2.0 * lead * (low * f + aj * 2.0 * alpha * fz)
+
+
+def _hyp_form(s, j, alpha, deriv):
+    """b_s^(j)(alpha) (deriv=0) or d/dalpha of it (deriv=1) from the hypergeometric form."""
+    return _hyp_pair(s, j, alpha)[deriv]
 
 
 def _recurrence(s, j, alpha):
@@ -174,10 +178,8 @@ def _recurrence(s, j, alpha):
     ~10^4 for j <= 250.
     """
     j0 = float(_RECURRENCE_START)
-    b_prev = _hyp_form(s, j0 - 1.0, alpha, 0)
-    b_cur = _hyp_form(s, j0, alpha, 0)
-    d_prev = _hyp_form(s, j0 - 1.0, alpha, 1)
-    d_cur = _hyp_form(s, j0, alpha, 1)
+    b_prev, d_prev = _hyp_pair(s, j0 - 1.0, alpha)
+    b_cur, d_cur = _hyp_pair(s, j0, alpha)
     b_out = np.where(j == j0, b_cur, np.nan)
     d_out = np.where(j == j0, d_cur, np.nan)
     jj = j0
@@ -200,8 +202,7 @@ def _b_and_db(s, j, alpha):
     j = np.abs(np.asarray(j, dtype=float))
     alpha = np.asarray(alpha, dtype=float)
     j, alpha = np.broadcast_arrays(j, alpha)
-    b = _hyp_form(s, j, alpha, 0)
-    db = _hyp_form(s, j, alpha, 1)
+    b, db = _hyp_pair(s, j, alpha)
     bad = ~(np.isfinite(b) & np.isfinite(db)) & (j >= _RECURRENCE_START)
     if np.any(bad):
         rb, rd = _recurrence(s, j[bad], alpha[bad])

@@ -670,7 +670,8 @@ def body_features(body, max_order: int = 3, sigma_g_cm2=None, viscosity_cm2_s=No
     if key not in _CACHE:
         res = find_resonances(body, rmin_km=rmin_km, rmax_km=rmax_km, max_order=max_order,
                               satellites=satellites, sigma_g_cm2=sigma_g_cm2,
-                              viscosity_cm2_s=viscosity_cm2_s, max_m=max_m)
+                              viscosity_cm2_s=viscosity_cm2_s, max_m=max_m,
+                              near_rings_km=settings.edge_distance_km)
         feats = derive_features(body, res, settings)
         lo = -np.inf if rmin_km is None else float(rmin_km)
         hi = np.inf if rmax_km is None else float(rmax_km)

@@ -463,7 +463,7 @@ def _check(body, rmin_km, rmax_km, max_order, max_m, sigma_g_cm2, viscosity_cm2_
 
 def find_resonances(body, rmin_km=None, rmax_km=None, max_order=3, satellites=None,
                     min_torque=None, sigma_g_cm2=None, viscosity_cm2_s=None,
-                    max_m=DEFAULT_MAX_M):
+                    max_m=DEFAULT_MAX_M, near_rings_km=None):
     """All satellite resonances of a body in a radius range, sorted by radius.
 
     Parameters
@@ -482,6 +482,9 @@ def find_resonances(body, rmin_km=None, rmax_km=None, max_order=3, satellites=No
         Override the ring regions' surface density and viscosity everywhere.
     max_m : int
         Highest azimuthal wavenumber m.
+    near_rings_km : float, optional
+        Keep only terms inside a ring region or within this distance of a region or gap
+        edge (what :mod:`occplan.features` can use); default: every term in the range.
 
     Returns
     -------
@@ -522,6 +525,14 @@ def find_resonances(body, rmin_km=None, rmax_km=None, max_order=3, satellites=No
     idx = np.nonzero(keep)[0]
     r = _solve(body, m[idx], c["pattern"][idx], side[idx], vertical[idx], lo[idx], hi[idx])
     inside = np.isfinite(r) & (r >= rmin) & (r <= rmax)
+    if near_rings_km is not None:
+        # only terms in a ring region or within near_rings_km of a region or gap edge: the
+        # rest hold no feature, and their strengths are most of the cost
+        edges = np.array([x for reg in body.rings for x in reg.edge_a_km]
+                         + [x for g in body.gaps for x in (g.inner_km, g.outer_km)])
+        rr = np.where(np.isfinite(r), r, 0.0)
+        near = np.min(np.abs(rr[:, None] - edges[None, :]), axis=1) <= float(near_rings_km)
+        inside &= (body.region_at_semimajor(rr) != "") | near
     idx, r = idx[inside], r[inside]
 
     sat_i = c["sat"][idx]

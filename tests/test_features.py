@@ -169,3 +169,15 @@ def test_co_orbitals_and_harmonics_are_one_feature(saturn_features, uranus_featu
     assert not [f for f in uranus_features if f.satellite == "Ophelia" and f.label in ("28:26", "42:39")
                 and f.feature == "density wave"]
     assert np.isfinite(eps.resonance_radius_km)
+
+
+def test_catalogue_from_the_terms_near_the_rings_is_the_same():
+    """body_features asks only for terms inside a region or within the edge tolerance of an
+    edge (the rest are most of the cost); the features are the same as from every term."""
+    from occplan.features import derive_features
+    from occplan.resonances import find_resonances
+
+    body = get_body("uranus")
+    every = derive_features(body, find_resonances(body))
+    near = body_features(body)
+    assert [(f.name, f.torque_dyn_cm) for f in every] == [(f.name, f.torque_dyn_cm) for f in near]
