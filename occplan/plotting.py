@@ -187,7 +187,7 @@ def _add_polygon(ax, geom, gid, **style):
         geom = MultiPolygon([g for g in geom.geoms if g.geom_type == "Polygon"])
     patch = patch_from_polygon(geom, **style)
     patch.set_gid(gid)
-    ax.add_patch(patch)
+    ax.add_artist(patch)  # the view limits are set explicitly: no autoscale per vertex
     return patch
 
 
