@@ -225,6 +225,7 @@ class ZoneCrossing:
     transmission: float = float("nan")  # slant transmission exp(-tau/|sin B*|) of the region
     contrast: float = float("nan")  # the feature's signal as a fraction of the unocculted star
     usable: bool | None = None  # observable at the site (None: not evaluated)
+    time_sigma_s: float = float("nan")  # 1-sigma of the crossing time (occplan.uncertainty)
 
 
 def _radius_window(track: Track, side_start: float, side_end: float, r_lo: float, r_hi: float,

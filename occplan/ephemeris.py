@@ -481,6 +481,10 @@ class StarSpec:
     vmag: float | None = None
     kmag: float | None = None
     extra: dict = field(default_factory=dict, compare=False, hash=False)
+    # catalogue errors (Gaia names and units: ra_error, dec_error in mas, pmra_error,
+    # pmdec_error in mas/yr, parallax_error in mas, and the *_corr correlations); see
+    # occplan.uncertainty.star_covariance_mas2
+    errors: dict = field(default_factory=dict, compare=False, hash=False)
 
     def __post_init__(self):
         if not (np.isfinite(self.ra_deg) and 0.0 <= self.ra_deg < 360.0):

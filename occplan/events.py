@@ -46,6 +46,8 @@ class EventReport:
     hidden: list
     meta: dict = field(default_factory=dict)
     conditions: object = None
+    uncertainty: dict = field(default_factory=dict)  # budget, closest approach, crossings
+    recording: dict | None = None
 
     # ---------------------------------------------------------------- JSON
     def zone_rows(self) -> list[dict]:
@@ -58,6 +60,7 @@ class EventReport:
                 "m": f.m, "order": f.order, "resonance_radius_km": f.resonance_radius_km,
                 "side": z.side,
                 "time_utc": None if not np.isfinite(z.time_s) else _utc(z.time_s),
+                "time_sigma_s": z.time_sigma_s,
                 "start_utc": _utc(z.start_s), "end_utc": _utc(z.end_s),
                 "radial_velocity_km_s": z.radial_velocity_km_s,
                 "ring_longitude_deg": z.ring_longitude_deg,
@@ -77,6 +80,21 @@ class EventReport:
             })
         return rows
 
+    def crossing_rows(self) -> list[dict]:
+        """Region crossings (DESIGN.md names) with the 1-sigma of their start and end times."""
+        rows = pass_rows(self.track)
+        sig = self.uncertainty.get("passes", [])
+        for row, (a, b) in zip(rows, sig):
+            row["start_sigma_s"], row["end_sigma_s"] = a, b
+        return rows
+
+    def _recording_json(self):
+        if not self.recording:
+            return None
+        r = dict(self.recording)
+        r["start_utc"], r["stop_utc"] = _utc(r.pop("start_s")), _utc(r.pop("stop_s"))
+        return r
+
     def to_json(self) -> dict:
         tr = self.track
         return {
@@ -86,12 +104,15 @@ class EventReport:
             "closest_approach": {"time_utc": (_utc(tr.closest_approach_s)
                                               if np.isfinite(tr.closest_approach_radius_km) else None),
                                  "ring_radius_km": tr.closest_approach_radius_km,
-                                 "at_window_edge": tr.closest_approach_at_edge},
+                                 "at_window_edge": tr.closest_approach_at_edge,
+                                 "time_sigma_s": self.uncertainty.get("closest_approach", {}).get("time_s"),
+                                 "radius_sigma_km": self.uncertainty.get("closest_approach", {}).get("radius_km"),
+                                 "reach_probability": self.uncertainty.get("reach_probability", [])},
             "opening_angle_deg": tr.meta["opening_angle_deg"],
             "star_elevation_deg": tr.meta["star_elevation_deg"],
             "pole_position_angle_deg": tr.meta["pole_position_angle_deg"],
             "distance_au": tr.meta["distance_km"] / 149597870.7,
-            "crossings": pass_rows(tr),
+            "crossings": self.crossing_rows(),
             "planet_hidden": [{"start_utc": _utc(a), "end_utc": _utc(b)} for a, b in self.hidden],
             "zones": self.zone_rows(),
             "resolution": self.resolution,
@@ -99,9 +120,27 @@ class EventReport:
             "telescope": self.telescope.describe(),
             "observability": self.observability,
             "cautions": self.cautions,
+            "uncertainty": self.uncertainty.get("budget"),
+            "recording": self._recording_json(),
             "note": ring_note(tr),
             "meta": self.meta,
         }
+
+
+def _hms(iso: str | None, sigma_s) -> str:
+    """HH:MM:SS with as many decimals as the 1-sigma supports, and the sigma itself."""
+    from .uncertainty import time_precision
+
+    if iso is None:
+        return "-"
+    if sigma_s is None or not np.isfinite(sigma_s):
+        return iso[11:23]
+    nd = time_precision(sigma_s)
+    hh, mm, ss = iso[11:13], iso[14:16], float(iso[17:23])
+    sec = f"{ss:0{3 + nd if nd else 2}.{nd}f}"
+    if sec.startswith("60"):
+        return iso[11:23] + f" +-{sigma_s:.2g}s"  # rounding into the next minute: keep as is
+    return f"{hh}:{mm}:{sec} +-{sigma_s:.2g}s"
 
 
 def _utc(t_s: float) -> str:
@@ -113,11 +152,15 @@ def evaluate_event(body, star, observer: Observer, window, *, telescope=None, ke
                    max_order: int = 3, sigma_g_cm2=None, viscosity_cm2_s=None,
                    samples_per_wavelength: float | None = None, min_snr: float = DEFAULT_MIN_SNR,
                    luminosity_class: str = "auto", min_altitude_deg: float | None = None,
-                   sun_limit_deg: float | None = None) -> EventReport:
+                   sun_limit_deg: float | None = None, star_error_mas: float | None = None,
+                   planet_error_km: float | None = None,
+                   pole_error_deg: float | None = None) -> EventReport:
     """Evaluate one candidate occultation (see the module docstring).
 
     ``window`` is (start, end) as UTC ISO strings or TDB seconds past J2000;
     ``telescope`` a :class:`occplan.telescope.TelescopeProfile` (default profile if None).
+    ``star_error_mas``, ``planet_error_km``, ``pole_error_deg`` override the error budget
+    (:func:`occplan.uncertainty.error_budget`).
     """
     from . import observability as obs_mod
     from . import photometry as ph
@@ -236,9 +279,59 @@ def evaluate_event(body, star, observer: Observer, window, *, telescope=None, ke
                                        f"{max_order}; occplan.features, thresholds "
                                        f"{load_settings().path})"),
                  "min_snr": min_snr, "occplan_version": __version__})
+    unc, recording = _uncertainties(track, star, zones, tel, star_error_mas, planet_error_km,
+                                    pole_error_deg)
     return EventReport(track=track, zones=zones, telescope=tel, resolution=resolution,
                        photometry=photometry, observability=cond.summary(), cautions=cautions,
-                       hidden=hidden, meta=meta, conditions=cond)
+                       hidden=hidden, meta=meta, conditions=cond, uncertainty=unc,
+                       recording=recording)
+
+
+def _uncertainties(track, star, zones, tel, star_error_mas, planet_error_km, pole_error_deg):
+    """1-sigma of the closest approach, the region crossings and each feature's crossing
+    time (occplan.uncertainty), the chance that the chord reaches each boundary near its
+    closest approach, and the recording plan."""
+    from . import uncertainty as un
+
+    budget = un.error_budget(track, star, planet_sky_km=planet_error_km, pole_deg=pole_error_deg,
+                             star_error_mas=star_error_mas)
+    out = {"budget": budget.describe()}
+    if not np.isfinite(track.closest_approach_radius_km):
+        return out, None
+    ca = un.closest_approach_sigmas(track, budget)
+    out["closest_approach"] = ca
+    passes = track.passes
+    if passes:
+        a = un.crossing_time_sigma_s(track, budget, [p.start_s for p in passes])
+        b = un.crossing_time_sigma_s(track, budget, [p.end_s for p in passes])
+        # a window edge or the chord's turning point is no boundary crossing: no sigma there
+        t_ca, t0, t1 = track.closest_approach_s, track.tdb_s[0], track.tdb_s[-1]
+
+        def sig(t, value):
+            return None if (abs(t - t_ca) < 1e-3 or t <= t0 or t >= t1) else float(value)
+
+        out["passes"] = [(sig(p.start_s, x), sig(p.end_s, y)) for p, x, y in zip(passes, a, b)]
+    timed = [z for z in zones if np.isfinite(z.time_s)]
+    if timed:
+        for z, sig in zip(timed, un.crossing_time_sigma_s(track, budget, [z.time_s for z in timed])):
+            z.time_sigma_s = float(sig)
+    # grazing chords: the chance of reaching each boundary within 3 sigma of closest approach
+    r_ca, s_ca = track.closest_approach_radius_km, ca["radius_km"]
+    bounds = {(r.name, "inner", r.inner_km) for r in track.body.rings} | \
+        {(r.name, "outer", r.outer_km) for r in track.body.rings}
+    out["reach_probability"] = sorted(
+        ({"region": n, "edge": e, "boundary_km": b,
+          "probability": un.reach_probability(r_ca, s_ca, b)}
+         for n, e, b in bounds if np.isfinite(s_ca) and abs(b - r_ca) < 3 * s_ca),
+        key=lambda x: x["boundary_km"])
+    recording = None
+    if passes:
+        first = min(passes, key=lambda p: p.start_s)
+        last = max(passes, key=lambda p: p.end_s)
+        sig_first = un.crossing_time_sigma_s(track, budget, [first.start_s])[0]
+        sig_last = un.crossing_time_sigma_s(track, budget, [last.end_s])[0]
+        recording = un.recording_plan(first.start_s, last.end_s, sig_first, sig_last, tel)
+    return out, recording
 
 
 def _star_magnitude(star, band_name: str):
@@ -287,12 +380,40 @@ def summary_text(rep: EventReport, max_zones: int | None = 30) -> str:
         "Ring regions crossed:",
     ]
     for p in d["crossings"]:
-        lines.append(f"  {p['side']:7s} {p['region']:18s} {p['start_utc'][11:23]} .. {p['end_utc'][11:23]}"
+        lines.append(f"  {p['side']:7s} {p['region']:18s} "
+                     f"{_hms(p['start_utc'], p.get('start_sigma_s'))} .. "
+                     f"{_hms(p['end_utc'], p.get('end_sigma_s'))}"
                      + ("  (cut by the window)" if p["clipped_by_window"] else ""))
     if not d["crossings"]:
         lines.append("  none")
     for h in d["planet_hidden"]:
         lines.append(f"  planet hides the star {h['start_utc'][11:23]} .. {h['end_utc'][11:23]}")
+    ca = d["closest_approach"]
+    if ca.get("time_sigma_s") is not None and np.isfinite(ca["time_sigma_s"]):
+        lines.append(f"  closest approach {ca['ring_radius_km']:,.0f} +- {ca['radius_sigma_km']:,.1f} km "
+                     f"at {_hms(ca['time_utc'], ca['time_sigma_s'])}")
+    for rp in ca.get("reach_probability") or []:
+        lines.append(f"  chance the chord reaches the {rp['edge']} edge of the {rp['region']} "
+                     f"({rp['boundary_km']:,.0f} km): {100 * rp['probability']:.0f} %")
+    budget = d.get("uncertainty") or {}
+    if budget:
+        parts = [f"{k} {v['sigma_km']:.3g} km" for k, v in budget.get("terms", {}).items()
+                 if "sigma_km" in v]
+        pole = budget.get("terms", {}).get("pole", {}).get("sigma_deg")
+        if pole:
+            parts.append(f"pole {pole:g} deg")
+        lines.append("  1-sigma budget (sky plane at the planet): " + ", ".join(parts)
+                     + "; times print to the precision their sigma supports")
+        for n in budget.get("notes", []):
+            lines.append(f"  note: {n}")
+    rec = d.get("recording")
+    if rec:
+        lines.append(f"  record {rec['start_utc'][11:19]} .. {rec['stop_utc'][11:19]} UTC "
+                     f"({rec['duration_s'] / 60:.1f} min, {rec['frames']:,} frames at "
+                     f"{rep.telescope.cadence_s:g} s, {rec['data_volume_gb']:.2f} GB at "
+                     f"{rep.telescope.frame_width_px:g} x {rep.telescope.frame_height_px:g} px x "
+                     f"{rep.telescope.bits_per_pixel:g} bit): 3 sigma + 60 s of baseline around the "
+                     "first and last region crossing")
     res = d["resolution"]
     sd = res["stellar_diameter_km"]
     lines += [
@@ -317,7 +438,7 @@ def summary_text(rep: EventReport, max_zones: int | None = 30) -> str:
               "  SNR: the feature's own signal per resolution element, through the ring's slant "
               "transmission T = exp(-tau/|sin B*|), with the planet and ring light in the aperture"]
     if rep.zones:
-        lines.append(f"  {'side':7s} {'time (UTC)':12s} {'feature':40s} {'r km':>9s} "
+        lines.append(f"  {'side':7s} {'time (UTC) +- 1 sigma':21s} {'feature':40s} {'r km':>9s} "
                      f"{'v km/s':>7s} {'L km':>6s} {'dt_req s':>8s} {'res km':>6s} {'T':>6s} "
                      f"{'SNR':>6s}  verdict")
     shown = rep.zones
@@ -327,7 +448,7 @@ def summary_text(rep: EventReport, max_zones: int | None = 30) -> str:
         shown = [z for z in shown if id(z) in keep]
     for z in shown:
         f = z.feature
-        t = _utc(z.time_s)[11:23] if np.isfinite(z.time_s) else "(partial)"
+        t = _hms(_utc(z.time_s), z.time_sigma_s) if np.isfinite(z.time_s) else "(partial)"
         if f.weight <= 0:
             verdict = "listed (corotation zone, not scored)"
         elif z.resolvable:
@@ -343,7 +464,7 @@ def summary_text(rep: EventReport, max_zones: int | None = 30) -> str:
             verdict += " [not observable]"
         snr = f"{z.snr_per_element:6.1f}" if np.isfinite(z.snr_per_element) else "     -"
         trans = f"{z.transmission:6.3f}" if np.isfinite(z.transmission) else "     -"
-        lines.append(f"  {z.side:7s} {t:12s} {f.name[:40]:40s} {f.resonance_radius_km:9.1f} "
+        lines.append(f"  {z.side:7s} {t:21s} {f.name[:40]:40s} {f.resonance_radius_km:9.1f} "
                      f"{z.radial_velocity_km_s:7.2f} {z.feature_scale_km:6.2f} "
                      f"{z.required_interval_s:8.3f} {z.achievable_resolution_km:6.2f} {trans} {snr}  {verdict}")
     if len(shown) < len(rep.zones):

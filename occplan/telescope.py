@@ -38,6 +38,9 @@ class TelescopeProfile:
     band: str
     samples_per_wavelength: float
     seeing_fwhm_arcsec: float = 1.5
+    frame_width_px: float = 256.0
+    frame_height_px: float = 256.0
+    bits_per_pixel: float = 16.0
     sources: dict = field(default_factory=dict, compare=False, hash=False)
     path: str = ""
 
@@ -66,7 +69,8 @@ class TelescopeProfile:
 
 _NUMERIC = ("aperture_m", "central_obstruction", "throughput", "read_noise_e", "dark_e_s",
             "pixel_scale_arcsec", "aperture_radius_arcsec", "cadence_s", "dead_time_s",
-            "samples_per_wavelength", "seeing_fwhm_arcsec")
+            "samples_per_wavelength", "seeing_fwhm_arcsec", "frame_width_px", "frame_height_px",
+            "bits_per_pixel")
 ALLOWED_KEYS = ("name",) + _NUMERIC + ("band", "source")
 
 
@@ -116,6 +120,9 @@ def _validate(p: TelescopeProfile) -> TelescopeProfile:
         bad("dead_time_s", f"must be shorter than the cadence ({p.cadence_s} s)")
     if p.samples_per_wavelength < 2:
         bad("samples_per_wavelength", "must be >= 2 (2 is the Nyquist bound)")
+    for key in ("frame_width_px", "frame_height_px", "bits_per_pixel"):
+        if not 1 <= getattr(p, key) <= 1e5:
+            bad(key, "must be between 1 and 100,000")
     if p.seeing_fwhm_arcsec <= 0:
         bad("seeing_fwhm_arcsec", "the seeing FWHM must be > 0 arcsec")
     if p.aperture_radius_arcsec < p.pixel_scale_arcsec / 2:

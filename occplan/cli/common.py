@@ -119,4 +119,6 @@ def event_report(opts: dict):
         max_order=o["max_order"], sigma_g_cm2=o["sigma"],
         samples_per_wavelength=o["samples_per_wavelength"],
         luminosity_class=o["luminosity_class"], min_snr=o["min_snr"],
+        star_error_mas=o.get("star_error_mas"), planet_error_km=o.get("planet_error_km"),
+        pole_error_deg=o.get("pole_error_deg"),
     )

@@ -35,6 +35,8 @@ def register(app: typer.Typer) -> None:
         aperture: o.Aperture = None, samples_per_wavelength: o.SamplesPerWavelength = None,
         max_order: o.MaxOrder = 3, sigma: o.Sigma = None,
         luminosity_class: o.LuminosityClass = "auto", min_snr: o.MinSnr = 3.0,
+        star_error_mas: o.StarErrorMas = None, planet_error_km: o.PlanetErrorKm = None,
+        pole_error_deg: o.PoleErrorDeg = None,
         fmt: o.Format = "table", out: o.Out = None, overwrite: o.Overwrite = False,
     ):
         """Evaluate one candidate: crossings, features on the chord, cadence, resolution, SNR, safety.

@@ -120,4 +120,7 @@ SamplesPerWavelength = Annotated[Optional[float], typer.Option("--samples-per-wa
 MaxOrder = Annotated[int, typer.Option("--max-order", help="Highest resonance order considered (1..3).")]
 Sigma = Annotated[Optional[float], typer.Option("--sigma", help="Ring surface density, g/cm^2, everywhere (overrides the body file's region values).")]
 LuminosityClass = Annotated[str, typer.Option("--luminosity-class", help="Star's class for the diameter relation: dwarf, giant or auto (from V-K).")]
+StarErrorMas = Annotated[Optional[float], typer.Option("--star-error-mas", help="1-sigma error of the star's position at the event epoch, mas (default: the catalogue's Gaia errors, when given).")]
+PlanetErrorKm = Annotated[Optional[float], typer.Option("--planet-error-km", help="1-sigma error of the planet's ephemeris position in the sky plane, km (default: occplan/data/ephemeris_uncertainty.toml).")]
+PoleErrorDeg = Annotated[Optional[float], typer.Option("--pole-error-deg", help="1-sigma error of the ring-plane pole, deg (default: occplan/data/ephemeris_uncertainty.toml).")]
 MinSnr = Annotated[float, typer.Option("--min-snr", help="Minimum SNR per resolution element for a zone to count as resolvable.")]
