@@ -74,6 +74,7 @@ class RingRegion:
     # radial envelope over all longitudes); used to match resonance-held edges.
     edge_inner_a_km: float | None = None
     edge_outer_a_km: float | None = None
+    orbit: object = None  # occplan.ring_orbits.RingOrbit for an eccentric ring, else None
 
     @property
     def edge_a_km(self) -> tuple[float, float]:
@@ -210,6 +211,12 @@ class Body:
                             for g in self.gaps))
 
 
+def _orbit(table, where):
+    from .ring_orbits import parse_orbit
+
+    return parse_orbit(table, where)
+
+
 def _need(table: dict, key: str, where: str):
     if key not in table:
         raise DataFileError(f"{where}: missing key {key!r}")
@@ -250,6 +257,8 @@ def _parse(data: dict, path: str) -> Body:
                 source=str(r.get("source", "")),
                 edge_inner_a_km=(float(r["edge_inner_a_km"]) if "edge_inner_a_km" in r else None),
                 edge_outer_a_km=(float(r["edge_outer_a_km"]) if "edge_outer_a_km" in r else None),
+                orbit=(_orbit(r["orbit"], f"{where} [[rings]] {r.get('name', '?')}")
+                       if "orbit" in r else None),
             )
             for r in _need(data, "rings", where)
         )

@@ -345,9 +345,18 @@ def zone_crossings(track: Track, features, *, cadence_s: float, fresnel_km: floa
     crossing = crossing_times_many(track, radii) if radii.size else []
     # 1. which features each side crosses, and when
     found = []  # (feature, side, start, end, t_res or nan)
+    # narrow rings with an orbit model: their edges' crossings (occplan.ring_orbits), not
+    # the circular envelope
+    orbit_rings = {reg.name for reg in track.body.rings if getattr(reg, "orbit", None) is not None}
     for side, a, b in sides(track):
         r_side = interp.radius(np.array([a, b]))
         for k, feat in enumerate(features):
+            if feat.feature == "narrow ring" and feat.region in orbit_rings:
+                ps = [p for p in track.passes if p.region == feat.region and p.side == side]
+                if ps:
+                    found.append((feat, side, ps[0].start_s, ps[0].end_s,
+                                  0.5 * (ps[0].start_s + ps[0].end_s)))
+                continue
             win = _radius_window(track, a, b, feat.zone_inner_km, feat.zone_outer_km,
                                  crossing[3 * k], crossing[3 * k + 1], r_side)
             if win is None or win[1] - win[0] < 1e-3:
@@ -373,6 +382,16 @@ def zone_crossings(track: Track, features, *, cadence_s: float, fresnel_km: floa
     r_ends = interp.radius(np.concatenate([start, end])).reshape(2, n)
     fresnel_ring = fresnel_km * np.sqrt(scale) * grad
     lam = np.array([feature_scale_km(x[0], fr) for x, fr in zip(found, fresnel_ring)])
+    if orbit_rings:  # a narrow eccentric ring's width where the chord crosses it
+        from .ring_orbits import edge_radius_km
+
+        regs = {reg.name: reg for reg in track.body.rings}
+        for i, (feat, *_rest) in enumerate(found):
+            if feat.feature == "narrow ring" and feat.region in orbit_rings:
+                orbit = regs[feat.region].orbit
+                lon_rad = math.radians(lon[i])
+                lam[i] = float(edge_radius_km(orbit, track.body, "outer", lon_rad, when[i])
+                               - edge_radius_km(orbit, track.body, "inner", lon_rad, when[i]))
     with np.errstate(divide="ignore"):
         dt_req = np.where(vmax > 0, lam / (samples_per_wavelength * np.where(vmax > 0, vmax, 1.0)),
                           np.inf)
@@ -423,6 +442,8 @@ def zone_crossings(track: Track, features, *, cadence_s: float, fresnel_km: floa
                                     samples_per_wavelength * vmax[i] * cadence_s, scale_km=lam[i])
         fraction, whole = _observed_fraction(feat, extent, float(r_ends[:, i].min()),
                                              float(r_ends[:, i].max()))
+        if feat.feature == "narrow ring" and feat.region in orbit_rings:
+            whole, fraction = True, (1.0 if extent > 0 else 0.0)  # both edges were crossed
         if not whole:
             ok = False
             reasons.append("only part of the zone crossed on this side")

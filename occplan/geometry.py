@@ -612,8 +612,14 @@ def compute_track(eph, body, observer, star, tdb_s, corrections: Corrections = C
         behind_planet=(geo["limb"] < 0.0) & ahead, interp=interp,
     )
     _find_events(track, interp, body, nodes, t)
+    orbit_notes = []
+    if any(getattr(reg, "orbit", None) is not None for reg in body.rings):
+        from .ring_orbits import apply_ring_orbits
+
+        orbit_notes = apply_ring_orbits(track)
     track.meta = track_meta(eph, body, observer, star, corrections, node_geo, t, node_step_s,
                             exact)
+    track.meta["notes"] = list(track.meta.get("notes", [])) + orbit_notes
     track.meta["samples_with_intercept"] = int(np.count_nonzero(valid))
     # How much a pole error moves the radii: tilting the ring plane by delta moves the
     # intercept of a ray at radius r by about r delta / tan|B*| (common practice).
