@@ -80,6 +80,24 @@ class EventReport:
             })
         return rows
 
+    def from_memory(self) -> list[str]:
+        """Which inputs of this event rest on values the data files mark "from memory"."""
+        out = []
+        body = self.track.body
+        crossed = {p.region for p in self.track.passes}
+        for reg in body.rings:
+            if reg.name in crossed and "from memory" in reg.source:
+                out.append(f"{reg.name}: {reg.source}")
+            orbit = getattr(reg, "orbit", None)
+            if reg.name in crossed and orbit is not None and "from memory" in orbit.source:
+                out.append(f"{reg.name} orbit: {orbit.source}")
+        if "from memory" in str(body.photometry.get("source", "")):
+            out.append(f"{body.name} reflectances: {body.photometry['source']}")
+        for name, term in (self.uncertainty.get("budget") or {}).get("terms", {}).items():
+            if "from memory" in str(term.get("from", "")) and name in ("planet", "pole"):
+                out.append(f"{name} uncertainty: {term['from']}")
+        return out
+
     def crossing_rows(self) -> list[dict]:
         """Region crossings (DESIGN.md names) with the 1-sigma of their start and end times."""
         rows = pass_rows(self.track)
@@ -121,6 +139,7 @@ class EventReport:
             "observability": self.observability,
             "cautions": self.cautions,
             "uncertainty": self.uncertainty.get("budget"),
+            "from_memory": self.from_memory(),
             "recording": self._recording_json(),
             "note": ring_note(tr),
             "meta": self.meta,
@@ -470,6 +489,11 @@ def summary_text(rep: EventReport, max_zones: int | None = 30) -> str:
     if len(shown) < len(rep.zones):
         lines.append(f"  ... the {len(shown)} strongest of {len(rep.zones)} feature crossings shown; "
                      "all are in --format json / csv / ecsv")
+    if d.get("from_memory"):
+        lines += ["", f"Values marked 'from memory' in the data files that this event rests on "
+                      f"({len(d['from_memory'])}; see --format json for the full sources):"]
+        for item in d["from_memory"]:
+            lines.append(f"  - {item.split(':')[0]}")
     ob = d["observability"]
     lines.append("")
     if ob.get("applicable"):
