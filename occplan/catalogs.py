@@ -311,7 +311,7 @@ def _read_table(path: Path):
 
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")  # VOTable / unit-parsing chatter; errors still raise
-            table = Table.read(str(path), format=fmt)
+            table = _read_parquet(path) if fmt == "parquet" else Table.read(str(path), format=fmt)
     except ImportError as exc:
         raise DataFileError(f"catalog {str(path)!r}: reading {fmt} needs a package that is not "
                             f"installed ({exc}); install pyarrow for Parquet") from None
@@ -323,6 +323,32 @@ def _read_table(path: Path):
         clean = name.lstrip("\ufeff").strip()
         if clean != name and clean not in table.colnames:
             table.rename_column(name, clean)
+    return table
+
+
+def _read_parquet(path: Path):
+    """A Parquet file as an astropy Table through pyarrow (astropy's own reader wants pandas);
+    units from astropy's ``table_meta_yaml`` header when the file has one."""
+    import pyarrow.parquet as pq
+    from astropy.table import MaskedColumn, Table
+    from astropy.table.meta import get_header_from_yaml
+
+    pa_table = pq.read_table(str(path))
+    units = {}
+    meta = pa_table.schema.metadata or {}
+    if b"table_meta_yaml" in meta:
+        header = get_header_from_yaml(meta[b"table_meta_yaml"].decode("utf-8").splitlines())
+        units = {c["name"]: c.get("unit") for c in header.get("datatype", [])}
+    table = Table()
+    for name in pa_table.column_names:
+        chunked = pa_table.column(name)
+        values = chunked.to_numpy()
+        mask = chunked.is_null().to_numpy() if chunked.null_count else None
+        if mask is not None and values.dtype.kind == "f":
+            values = np.where(mask, np.nan, values)
+        table[name] = MaskedColumn(values, mask=mask, unit=units.get(name)) if mask is not None else values
+        if units.get(name) and mask is None:
+            table[name].unit = units[name]
     return table
 
 
