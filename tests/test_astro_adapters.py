@@ -59,3 +59,23 @@ def test_earthlocation_to_observer():
     with pytest.raises(InputError):
         observer((1, 2))
     assert isinstance(star_spec(StarSpec(1.0, 2.0)), StarSpec)
+
+
+def test_public_api_is_lazy():
+    """Importing occplan imports neither astropy, skyfield nor numpy-heavy modules; the
+    re-exported names resolve to the library's functions on first access."""
+    import subprocess
+    import sys
+
+    code = ("import sys, occplan; heavy = [m for m in ('astropy', 'skyfield', 'scipy', 'matplotlib', "
+            "'occplan.ephemeris', 'occplan.search') if m in sys.modules]; print(heavy)")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "[]"
+    import occplan
+    from occplan.events import evaluate_event
+
+    assert occplan.evaluate_event is evaluate_event
+    for name in occplan.__all__:
+        assert getattr(occplan, name) is not None
+    with pytest.raises(AttributeError):
+        occplan.no_such_function  # noqa: B018
