@@ -4,9 +4,11 @@ Sites: a TOML file with ``[[sites]]`` tables (``name``, ``lat_deg``, ``lon_deg``
 ``height_m``, optional ``telescope`` = path of a telescope TOML profile, optional
 ``min_altitude_deg``).
 
-Star catalogs: CSV, ECSV or VOTable with Gaia-style columns (:func:`read_catalog_table`,
-:func:`read_catalog`, :func:`catalog_star`); rows that cannot be used are skipped and listed in
-a :class:`CatalogReport`, never silently used.
+Star catalogs: CSV (also gzip), ECSV, VOTable, FITS or Parquet with Gaia-style columns
+(:func:`read_catalog_table`, :func:`read_catalog`, :func:`catalog_star`), units read and
+converted, V and K from Gaia photometry where no measured value is given
+(:mod:`occplan.gaia_photometry`); rows that cannot be used are skipped and listed in a
+:class:`CatalogReport`, never silently used.
 """
 
 from __future__ import annotations
@@ -97,19 +99,38 @@ def check_magnitude(value, what: str):
 
 # --------------------------------------------------------------------------- star catalogs
 #
-# A star catalog is a CSV, ECSV or VOTable file with Gaia-style column names (or a column map
-# from those names to the file's own).  Units are Gaia's: ra, dec in deg (ICRS at ref_epoch),
-# pmra = mu_alpha* = mu_alpha cos(dec) and pmdec in mas/yr, parallax in mas, radial_velocity in
-# km/s, ref_epoch a Julian year (TCB in Gaia; the difference to TT is irrelevant at mas).
+# A star catalog is a table with Gaia-style column names (or a column map from those names to
+# the file's own): CSV (also gzip-compressed), ECSV, VOTable, FITS or Parquet, all read by
+# astropy's Table (Parquet through pyarrow).  Every column's unit is read and converted with
+# astropy units to occplan's: ra, dec in deg (ICRS at ref_epoch), pmra = mu_alpha* =
+# mu_alpha cos(dec) and pmdec in mas/yr, parallax and its error in mas, radial_velocity in
+# km/s, ref_epoch a Julian year (TCB in Gaia; the difference to TT is irrelevant at mas),
+# magnitudes in mag.  A column without a unit (CSV has none) is taken in these units, and the
+# report says so; a unit that cannot be converted is an error.
 
-CATALOG_COLUMNS = ("source_id", "ra", "dec", "pmra", "pmdec", "parallax", "radial_velocity",
-                   "ref_epoch", "vmag", "kmag", "phot_g_mean_mag")
+CATALOG_COLUMNS = ("source_id", "ra", "dec", "pmra", "pmdec", "parallax", "parallax_error",
+                   "radial_velocity", "ref_epoch", "vmag", "rmag", "imag", "jmag", "hmag", "kmag",
+                   "phot_g_mean_mag", "phot_bp_mean_mag", "phot_rp_mean_mag", "bp_rp")
 REQUIRED_COLUMNS = ("source_id", "ra", "dec", "pmra", "pmdec", "parallax")
-# Other spellings of the magnitude columns found in common catalogs (2MASS calls K "ks_m").
-MAGNITUDE_ALIASES = {"vmag": ("vmag", "v_mag", "v"), "kmag": ("kmag", "k_mag", "ks_m", "ksmag", "k")}
+# Other spellings of the magnitude columns found in common catalogs (2MASS: j_m, h_m, ks_m).
+MAGNITUDE_ALIASES = {"vmag": ("vmag", "v_mag", "v"), "rmag": ("rmag", "r_mag"),
+                     "imag": ("imag", "i_mag"), "jmag": ("jmag", "j_mag", "j_m"),
+                     "hmag": ("hmag", "h_mag", "h_m"),
+                     "kmag": ("kmag", "k_mag", "ks_m", "ksmag", "k")}
+# occplan's unit of each column: the default for a column without one (Gaia's units).
+COLUMN_UNITS = {"ra": "deg", "dec": "deg", "pmra": "mas / yr", "pmdec": "mas / yr",
+                "parallax": "mas", "parallax_error": "mas", "radial_velocity": "km / s",
+                "ref_epoch": "yr", **{k: "mag" for k in ("vmag", "rmag", "imag", "jmag", "hmag",
+                                                         "kmag", "phot_g_mean_mag",
+                                                         "phot_bp_mean_mag", "phot_rp_mean_mag",
+                                                         "bp_rp")}}
+# band -> occplan column of a measured magnitude
+BAND_COLUMNS = {"V": "vmag", "R": "rmag", "I": "imag", "J": "jmag", "H": "hmag", "K": "kmag"}
 DEFAULT_REF_EPOCH_YR = 2016.0  # Gaia DR3 epoch (common practice: the catalogue's own epoch)
 CATALOG_FORMATS = {".csv": "ascii.csv", ".ecsv": "ascii.ecsv", ".vot": "votable",
-                   ".xml": "votable", ".votable": "votable"}
+                   ".xml": "votable", ".votable": "votable", ".fits": "fits", ".fit": "fits",
+                   ".fts": "fits", ".parquet": "parquet", ".pq": "parquet"}
+COMPRESSED_SUFFIXES = (".gz", ".bz2", ".xz")
 
 
 @dataclass
@@ -141,10 +162,19 @@ class CatalogReport:
                 "notes": list(self.notes)}
 
 
+_ARRAY_FIELDS = ("source_id", "ra_deg", "dec_deg", "pm_ra_mas_yr", "pm_dec_mas_yr", "parallax_mas",
+                 "rv_km_s", "epoch_jd_tt", "vmag", "kmag", "gmag", "parallax_error_mas", "bp_rp")
+
+
 @dataclass
 class StarTable:
-    """A star catalog as plain arrays (deg, mas/yr, mas, km/s, TT Julian dates): the search
-    works on these; :meth:`star` builds one :class:`occplan.ephemeris.StarSpec`."""
+    """A star catalog as plain arrays (deg, mas/yr, mas, km/s, TT Julian dates, mag): the
+    search works on these; :meth:`star` builds one :class:`occplan.ephemeris.StarSpec`.
+
+    ``vmag`` and ``kmag`` are the best known V and K (measured, else from Gaia G and BP-RP);
+    ``magnitudes`` maps each band V, R, I, J, H, K to arrays ``mag``, ``sigma`` (nan for a
+    measured value) and ``source`` (what the value is), see :mod:`occplan.gaia_photometry`.
+    """
 
     source_id: np.ndarray  # str
     ra_deg: np.ndarray
@@ -158,6 +188,23 @@ class StarTable:
     kmag: np.ndarray
     gmag: np.ndarray
     report: CatalogReport = None
+    parallax_error_mas: np.ndarray = None  # nan when unknown
+    bp_rp: np.ndarray = None
+    magnitudes: dict = None
+
+    def __post_init__(self):
+        n = len(self.ra_deg)
+        if self.parallax_error_mas is None:
+            self.parallax_error_mas = np.full(n, np.nan)
+        if self.bp_rp is None:
+            self.bp_rp = np.full(n, np.nan)
+        if self.magnitudes is None:
+            self.magnitudes = {}
+            for band, arr in (("V", self.vmag), ("K", self.kmag)):
+                src = np.full(n, "", dtype=object)
+                src[np.isfinite(arr)] = f"given {band}"
+                self.magnitudes[band] = {"mag": np.asarray(arr, dtype=float),
+                                         "sigma": np.full(n, np.nan), "source": src}
 
     def __len__(self) -> int:
         return int(self.ra_deg.size)
@@ -171,6 +218,18 @@ class StarTable:
         extra = {"source_id": str(self.source_id[i])}
         if np.isfinite(self.gmag[i]):
             extra["phot_g_mean_mag"] = float(self.gmag[i])
+        if np.isfinite(self.bp_rp[i]):
+            extra["bp_rp"] = float(self.bp_rp[i])
+        if np.isfinite(self.parallax_error_mas[i]):
+            extra["parallax_error_mas"] = float(self.parallax_error_mas[i])
+        phot = {}
+        for band, cols in self.magnitudes.items():
+            if np.isfinite(cols["mag"][i]):
+                s = cols["sigma"][i]
+                phot[band] = {"mag": float(cols["mag"][i]), "sigma": float(s) if np.isfinite(s) else None,
+                              "source": str(cols["source"][i])}
+        if phot:
+            extra["photometry"] = phot
         return StarSpec(ra_deg=float(self.ra_deg[i]), dec_deg=float(self.dec_deg[i]),
                         pm_ra_mas_yr=float(self.pm_ra_mas_yr[i]),
                         pm_dec_mas_yr=float(self.pm_dec_mas_yr[i]),
@@ -183,10 +242,9 @@ class StarTable:
 
     def subset(self, index) -> "StarTable":
         idx = np.asarray(index)
-        kw = {f: getattr(self, f)[idx] for f in ("source_id", "ra_deg", "dec_deg", "pm_ra_mas_yr",
-                                                   "pm_dec_mas_yr", "parallax_mas", "rv_km_s",
-                                                   "epoch_jd_tt", "vmag", "kmag", "gmag")}
-        return StarTable(**kw, report=self.report)
+        kw = {f: getattr(self, f)[idx] for f in _ARRAY_FIELDS}
+        mags = {b: {k: v[idx] for k, v in cols.items()} for b, cols in self.magnitudes.items()}
+        return StarTable(**kw, report=self.report, magnitudes=mags)
 
     @classmethod
     def from_stars(cls, stars) -> "StarTable":
@@ -194,6 +252,24 @@ class StarTable:
         def col(get):
             return np.array([get(s) for s in stars], dtype=float)
 
+        def phot(s, band, key):
+            v = ((s.extra.get("photometry") or {}).get(band) or {}).get(key)
+            return np.nan if v is None else v
+
+        n = len(stars)
+        mags = {}
+        for band in BAND_COLUMNS:
+            mag = col(lambda s, b=band: phot(s, b, "mag"))
+            if band == "V":
+                mag = np.where(np.isfinite(mag), mag, col(lambda s: np.nan if s.vmag is None else s.vmag))
+            if band == "K":
+                mag = np.where(np.isfinite(mag), mag, col(lambda s: np.nan if s.kmag is None else s.kmag))
+            if not np.isfinite(mag).any():
+                continue
+            src = np.array([(s.extra.get("photometry") or {}).get(band, {}).get("source") or
+                            (f"given {band}" if np.isfinite(m) else "") for s, m in zip(stars, mag)],
+                           dtype=object)
+            mags[band] = {"mag": mag, "sigma": col(lambda s, b=band: phot(s, b, "sigma")), "source": src}
         return cls(
             source_id=np.array([s.name or str(i + 1) for i, s in enumerate(stars)], dtype=object),
             ra_deg=col(lambda s: s.ra_deg), dec_deg=col(lambda s: s.dec_deg),
@@ -203,25 +279,77 @@ class StarTable:
             vmag=col(lambda s: np.nan if s.vmag is None else s.vmag),
             kmag=col(lambda s: np.nan if s.kmag is None else s.kmag),
             gmag=col(lambda s: s.extra.get("phot_g_mean_mag", np.nan)),
-            report=CatalogReport(path="(in memory)", rows_read=len(stars), stars=len(stars)))
+            report=CatalogReport(path="(in memory)", rows_read=n, stars=n),
+            parallax_error_mas=col(lambda s: s.extra.get("parallax_error_mas", np.nan)),
+            bp_rp=col(lambda s: s.extra.get("bp_rp", np.nan)), magnitudes=mags)
+
+
+def catalog_format(path: Path) -> str:
+    """astropy's format name for a catalog file, from its suffix (a .gz, .bz2, .xz is looked
+    through: astropy decompresses)."""
+    name = path.name.lower()
+    for comp in COMPRESSED_SUFFIXES:
+        if name.endswith(comp):
+            name = name[: -len(comp)]
+            break
+    fmt = CATALOG_FORMATS.get(Path(name).suffix)
+    if fmt is None:
+        raise DataFileError(f"catalog {str(path)!r}: unknown file type {path.suffix!r}; use .csv "
+                            "(or .csv.gz), .ecsv, a VOTable (.vot, .xml), FITS (.fits) or .parquet")
+    if fmt == "parquet" and name != path.name.lower():
+        raise DataFileError(f"catalog {str(path)!r}: a compressed Parquet file is not supported "
+                            "(Parquet compresses itself); decompress it")
+    return fmt
 
 
 def _read_table(path: Path):
     from astropy.table import Table
 
-    fmt = CATALOG_FORMATS.get(path.suffix.lower())
-    if fmt is None:
-        raise DataFileError(f"catalog {str(path)!r}: unknown file type {path.suffix!r}; use "
-                            ".csv, .ecsv or a VOTable (.vot, .xml)")
+    fmt = catalog_format(path)
     try:
         import warnings
 
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")  # VOTable / unit-parsing chatter; errors still raise
-            return Table.read(str(path), format=fmt)
+            table = _read_parquet(path) if fmt == "parquet" else Table.read(str(path), format=fmt)
+    except ImportError as exc:
+        raise DataFileError(f"catalog {str(path)!r}: reading {fmt} needs a package that is not "
+                            f"installed ({exc}); install pyarrow for Parquet") from None
     except Exception as exc:  # astropy raises many types for malformed files
         first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
         raise DataFileError(f"catalog {str(path)!r} cannot be read as {fmt} ({first})") from None
+    # A UTF-8 byte-order mark (spreadsheet exports) sticks to the first column's name.
+    for name in list(table.colnames):
+        clean = name.lstrip("\ufeff").strip()
+        if clean != name and clean not in table.colnames:
+            table.rename_column(name, clean)
+    return table
+
+
+def _read_parquet(path: Path):
+    """A Parquet file as an astropy Table through pyarrow (astropy's own reader wants pandas);
+    units from astropy's ``table_meta_yaml`` header when the file has one."""
+    import pyarrow.parquet as pq
+    from astropy.table import MaskedColumn, Table
+    from astropy.table.meta import get_header_from_yaml
+
+    pa_table = pq.read_table(str(path))
+    units = {}
+    meta = pa_table.schema.metadata or {}
+    if b"table_meta_yaml" in meta:
+        header = get_header_from_yaml(meta[b"table_meta_yaml"].decode("utf-8").splitlines())
+        units = {c["name"]: c.get("unit") for c in header.get("datatype", [])}
+    table = Table()
+    for name in pa_table.column_names:
+        chunked = pa_table.column(name)
+        values = chunked.to_numpy()
+        mask = chunked.is_null().to_numpy() if chunked.null_count else None
+        if mask is not None and values.dtype.kind == "f":
+            values = np.where(mask, np.nan, values)
+        table[name] = MaskedColumn(values, mask=mask, unit=units.get(name)) if mask is not None else values
+        if units.get(name) and mask is None:
+            table[name].unit = units[name]
+    return table
 
 
 def _numbers(table, name: str, path: Path) -> np.ndarray:
@@ -240,7 +368,7 @@ def _numbers(table, name: str, path: Path) -> np.ndarray:
         for i, v in enumerate(data):
             if mask[i]:
                 continue
-            s = str(v).strip()
+            s = (v.decode("utf-8", "replace") if isinstance(v, bytes) else str(v)).strip()
             if s == "" or s.lower() in ("nan", "null", "none", "--"):
                 mask[i] = True
                 continue
@@ -253,6 +381,32 @@ def _numbers(table, name: str, path: Path) -> np.ndarray:
     return out
 
 
+def _unit_factor(table, name: str, key: str, path: Path):
+    """Factor from the column's own unit to occplan's (None: the column has no unit)."""
+    import astropy.units as u
+
+    unit = getattr(table[name], "unit", None)
+    if unit is None or (isinstance(unit, str) and not unit.strip()):
+        return None
+    if isinstance(unit, str):
+        unit = u.Unit(unit, parse_strict="silent")
+    if isinstance(unit, u.UnrecognizedUnit):
+        raise DataFileError(f"catalog {str(path)!r}: column {name!r} has unit {str(unit)!r}, "
+                            f"which astropy cannot read; give it in {COLUMN_UNITS[key]}")
+    want = COLUMN_UNITS[key]
+    if want == "mag":
+        # magnitudes: 'mag' (astropy's) or dimensionless; nothing to convert
+        if unit == u.mag or unit == u.dimensionless_unscaled:
+            return 1.0
+        raise DataFileError(f"catalog {str(path)!r}: column {name!r} has unit {unit.to_string()!r}, "
+                            "not a magnitude (mag)")
+    try:
+        return float(unit.to(u.Unit(want)))
+    except u.UnitConversionError:
+        raise DataFileError(f"catalog {str(path)!r}: column {name!r} has unit {unit.to_string()!r}, "
+                            f"which cannot be converted to {want}") from None
+
+
 def read_catalog_table(path: str | Path, column_map: dict | None = None,
                        allow_no_motion: bool = False) -> StarTable:
     """Read a star catalog into arrays (see :class:`StarTable`).
@@ -260,9 +414,12 @@ def read_catalog_table(path: str | Path, column_map: dict | None = None,
     Parameters
     ----------
     path : str or Path
-        CSV, ECSV or VOTable file with Gaia-style columns: ``source_id``, ``ra``, ``dec``,
-        ``pmra``, ``pmdec``, ``parallax`` (required), ``radial_velocity``, ``ref_epoch``
-        (Julian year; default 2016.0), ``vmag``, ``kmag``, ``phot_g_mean_mag`` (optional).
+        CSV (also ``.csv.gz``), ECSV, VOTable (``.vot``, ``.xml``), FITS table (``.fits``) or
+        Parquet file with Gaia-style columns: ``source_id``, ``ra``, ``dec``, ``pmra``,
+        ``pmdec``, ``parallax`` (required), ``parallax_error``, ``radial_velocity``,
+        ``ref_epoch`` (Julian year; default 2016.0), Gaia photometry ``phot_g_mean_mag``,
+        ``phot_bp_mean_mag``, ``phot_rp_mean_mag``, ``bp_rp``, and measured magnitudes
+        ``vmag``, ``kmag`` (also 2MASS ``j_m``, ``h_m``, ``ks_m``; ``rmag``, ``imag``).
     column_map : dict, optional
         occplan name -> the file's column name, e.g. ``{"ra": "RA_ICRS"}``.
     allow_no_motion : bool
@@ -272,6 +429,16 @@ def read_catalog_table(path: str | Path, column_map: dict | None = None,
 
     Notes
     -----
+    Units: each column's unit (ECSV, VOTable, FITS, Parquet written by astropy) is converted
+    with astropy units to deg, mas/yr, mas, km/s, yr, mag; a column without a unit is taken
+    in those units (a note lists them); a unit that does not convert raises
+    :class:`DataFileError`.
+
+    Magnitudes: V, R, I, J, H, K are the measured ones where the catalog has them, else
+    derived from G and BP-RP by the Gaia DR3 colour transformations
+    (:mod:`occplan.gaia_photometry`, scatter carried as the uncertainty, colour range
+    enforced); ``StarTable.magnitudes`` and each StarSpec's ``extra['photometry']`` say which.
+
     Rows without a position (or, by default, without proper motion and parallax) are skipped
     and listed in the report, never silently used; a repeated ``source_id`` keeps the first
     row.  A negative parallax (allowed by Gaia's noise) is used as 0 and counted in the notes.
@@ -279,6 +446,8 @@ def read_catalog_table(path: str | Path, column_map: dict | None = None,
     distant stars of occultation work).  Unparsable numbers and missing columns raise
     :class:`DataFileError`.
     """
+    from .gaia_photometry import best_magnitude, relations
+
     p = Path(path)
     if not p.is_file():
         raise DataFileError(f"catalog file {str(p)!r} not found")
@@ -313,20 +482,48 @@ def read_catalog_table(path: str | Path, column_map: dict | None = None,
 
     ids_col = table[column_name("source_id")]
     id_mask = np.asarray(np.ma.getmaskarray(ids_col)) if hasattr(ids_col, "mask") else np.zeros(n, bool)
-    ids = np.array([str(v).strip() for v in np.ma.getdata(ids_col)], dtype=object)
+    ids = np.array([(v.decode("utf-8", "replace") if isinstance(v, bytes) else str(v)).strip()
+                    for v in np.ma.getdata(ids_col)], dtype=object)
     ids[id_mask] = ""
+
+    no_unit = []
 
     def numbers(key, default=np.nan):
         name = column_name(key)
-        return _numbers(table, name, p) if name is not None else np.full(n, default)
+        if name is None:
+            return np.full(n, default)
+        values = _numbers(table, name, p)
+        factor = _unit_factor(table, name, key, p)
+        if factor is None:
+            no_unit.append(f"{name} ({COLUMN_UNITS[key]})")
+            return values
+        return values * factor
 
     ra, dec = numbers("ra"), numbers("dec")
     pmra, pmdec, plx = numbers("pmra"), numbers("pmdec"), numbers("parallax")
+    plx_err = numbers("parallax_error")
     rv = numbers("radial_velocity", 0.0)
     epoch = numbers("ref_epoch", DEFAULT_REF_EPOCH_YR)
     if column_name("ref_epoch") is None:
         report.notes.append(f"no ref_epoch column: positions taken at J{DEFAULT_REF_EPOCH_YR}")
-    vmag, kmag, gmag = numbers("vmag"), numbers("kmag"), numbers("phot_g_mean_mag")
+    gmag, bp, rp, bprp = (numbers(k) for k in ("phot_g_mean_mag", "phot_bp_mean_mag",
+                                                "phot_rp_mean_mag", "bp_rp"))
+    colour = np.where(np.isfinite(bprp), bprp, bp - rp)
+    magnitudes = {}
+    for band, key in BAND_COLUMNS.items():
+        name = column_name(key)
+        mag, sig, src, counts = best_magnitude(band, numbers(key), f"catalog column {name}",
+                                               gmag, colour)
+        magnitudes[band] = {"mag": mag, "sigma": sig, "source": src}
+        rel = relations()[band]
+        if counts["derived"]:
+            report.notes.append(f"{band} from Gaia G and BP-RP for {counts['derived']} star(s) "
+                                f"(Riello et al. 2021; sigma {rel.sigma_mag:.3f} mag)")
+        if counts["outside_range"]:
+            report.notes.append(f"{counts['outside_range']} star(s) with BP-RP outside "
+                                f"{rel.colour_range[0]}..{rel.colour_range[1]}: no {band} from Gaia")
+    if no_unit:
+        report.notes.append("no unit in the file for " + ", ".join(no_unit) + ": taken in those units")
 
     keep = np.ones(n, dtype=bool)
 
@@ -370,7 +567,9 @@ def read_catalog_table(path: str | Path, column_map: dict | None = None,
         source_id=ids[idx], ra_deg=ra[idx], dec_deg=dec[idx], pm_ra_mas_yr=pmra[idx],
         pm_dec_mas_yr=pmdec[idx], parallax_mas=plx[idx], rv_km_s=rv[idx],
         epoch_jd_tt=2451545.0 + (epoch[idx] - 2000.0) * 365.25,
-        vmag=vmag[idx], kmag=kmag[idx], gmag=gmag[idx], report=report)
+        vmag=magnitudes["V"]["mag"][idx], kmag=magnitudes["K"]["mag"][idx], gmag=gmag[idx],
+        report=report, parallax_error_mas=plx_err[idx], bp_rp=colour[idx],
+        magnitudes={b: {k: v[idx] for k, v in cols.items()} for b, cols in magnitudes.items()})
 
 
 def read_catalog(path: str | Path, column_map: dict | None = None,

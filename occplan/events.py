@@ -200,7 +200,7 @@ def evaluate_event(body, star, observer: Observer, window, *, telescope=None, ke
                   "cadence_s": tel.cadence_s, "samples_per_wavelength": spw,
                   "nyquist_samples_per_wavelength": 2.0, "notes": []}
     if star.vmag is not None and star.kmag is not None:
-        diam = ph.stellar_angular_diameter_mas(star.vmag, star.kmag, luminosity_class)
+        diam = ph.star_angular_diameter(star, luminosity_class)
         resolution["stellar_diameter_mas"] = diam.theta_mas
         resolution["stellar_diameter_km"] = float(ph.projected_stellar_diameter_km(diam.theta_mas, distance))
         resolution["stellar_diameter_relative_uncertainty"] = diam.relative_uncertainty
@@ -358,6 +358,12 @@ def _star_magnitude(star, band_name: str):
     from . import photometry as ph
 
     info = {"band": band_name, "vmag": star.vmag, "kmag": star.kmag}
+    known = ((getattr(star, "extra", None) or {}).get("photometry") or {}).get(band_name)
+    given = {"V": star.vmag, "K": star.kmag}.get(band_name)
+    if known and known.get("mag") is not None and (given is None or given == known["mag"]):
+        # a catalog's measured or Gaia-derived magnitude (unless --vmag/--kmag replaced it)
+        info.update(star_mag=known["mag"], star_mag_sigma=known.get("sigma"), star_mag_method=known["source"])
+        return known["mag"], info
     if star.vmag is not None and star.kmag is not None:
         mag = ph.estimate_band_magnitude(star.vmag, star.kmag, band_name)
         info["star_mag"] = mag

@@ -202,7 +202,8 @@ _VANBELLE_VK = (0.0, 8.0)
 AUTO_GIANT_VK = 3.7
 
 
-def stellar_angular_diameter_mas(vmag: float, kmag: float, luminosity_class: str = "auto"):
+def stellar_angular_diameter_mas(vmag: float, kmag: float, luminosity_class: str = "auto",
+                                 vmag_sigma: float = 0.0, kmag_sigma: float = 0.0):
     """Limb-darkened angular diameter (mas) from V and K magnitudes.
 
     Parameters
@@ -212,6 +213,9 @@ def stellar_angular_diameter_mas(vmag: float, kmag: float, luminosity_class: str
     luminosity_class : {'dwarf', 'giant', 'auto'}
         Which relation to use.  'auto' uses the giant relation when V-K > 3.7 and the
         dwarf relation otherwise (see Notes).
+    vmag_sigma, kmag_sigma : float
+        1-sigma uncertainties of V and K (mag), e.g. the scatter of a colour transformation;
+        propagated into ``relative_uncertainty`` (added in quadrature to the relation's).
 
     Returns
     -------
@@ -228,7 +232,10 @@ def stellar_angular_diameter_mas(vmag: float, kmag: float, luminosity_class: str
     relation gives up to 40 % larger diameters.  'auto' therefore defaults to the dwarf
     relation and switches to the giant one only beyond the dwarf calibration (V-K > 3.7),
     where a bright star is nearly always a giant; the note says so.  Pass the class when it
-    is known (spectral type, parallax).
+    is known (spectral type, parallax: :func:`star_angular_diameter`).
+    With log10 theta = a V + b K + c, the magnitudes' errors add
+    ln(10) sqrt((a sigma_V)^2 + (b sigma_K)^2) to the relative uncertainty (independent errors
+    assumed: conservative for V and K derived from the same Gaia colour).
     """
     v = _check_mag("V magnitude", vmag)
     k = _check_mag("K magnitude", kmag, K_MAG_RANGE)
@@ -244,15 +251,74 @@ def stellar_angular_diameter_mas(vmag: float, kmag: float, luminosity_class: str
     if cls == "dwarf":
         log_theta = _KERVELLA_A * vk + _KERVELLA_B - 0.2 * float(k)
         sigma, rng = _KERVELLA_SIGMA, _KERVELLA_VK
+        dv, dk = _KERVELLA_A, -_KERVELLA_A - 0.2
         relation = "Kervella et al. 2004 (A&A 426, 297): log theta = 0.0755 (V-K) + 0.5170 - 0.2 K"
     else:
         log_theta = _VANBELLE_B + _VANBELLE_A * vk - 0.2 * float(v)
         sigma, rng = _VANBELLE_SIGMA, _VANBELLE_VK
+        dv, dk = _VANBELLE_A - 0.2, -_VANBELLE_A
         relation = "van Belle 1999 (PASP 111, 1515): log theta = 0.669 + 0.223 (V-K) - 0.2 V"
+    sv, sk = float(vmag_sigma or 0.0), float(kmag_sigma or 0.0)
+    if not (np.isfinite(sv) and np.isfinite(sk) and sv >= 0 and sk >= 0):
+        raise InputError(f"magnitude uncertainties {vmag_sigma!r}, {kmag_sigma!r} must be >= 0")
+    if sv > 0 or sk > 0:
+        from_mags = math.log(10.0) * math.hypot(dv * sv, dk * sk)
+        sigma = math.hypot(sigma, from_mags)
+        extra = f"V, K uncertainties {sv:.3f}, {sk:.3f} mag add {100 * from_mags:.1f} % to the diameter"
+        note = f"{note}; {extra}" if note else extra
     if not rng[0] <= vk <= rng[1]:
         extra = f"V-K = {vk:.2f} is outside the {cls} calibration {rng[0]}..{rng[1]}: extrapolated"
         note = f"{note}; {extra}" if note else extra
     return StellarDiameter(10.0 ** log_theta, sigma, relation, cls, vk, note)
+
+
+EXTINCTION_NOTE = ("magnitudes not corrected for interstellar extinction: a reddened star's V-K "
+                   "is redder and its diameter overestimated")
+
+
+def star_angular_diameter(star, luminosity_class: str = "auto"):
+    """The angular diameter of a :class:`occplan.ephemeris.StarSpec`, or None without V and K.
+
+    Like :func:`stellar_angular_diameter_mas` on ``star.vmag``, ``star.kmag``, and in
+    addition: the magnitudes' uncertainties from ``star.extra['photometry']`` (the scatter of
+    a Gaia colour transformation, :mod:`occplan.gaia_photometry`) are propagated, and with
+    ``luminosity_class='auto'`` a significant parallax (``star.extra['parallax_error_mas']``)
+    decides dwarf or giant through the absolute K magnitude
+    (:func:`occplan.gaia_photometry.luminosity_class_from_parallax`); otherwise the colour
+    rule.  The note always says which class was used and why, and where V or K come from.
+    """
+    from .gaia_photometry import luminosity_class_from_parallax
+
+    if star.vmag is None or star.kmag is None:
+        return None
+    extra = getattr(star, "extra", None) or {}
+    phot = extra.get("photometry") or {}
+
+    def sigma(band):  # only for the magnitude the catalog gave (not a --vmag/--kmag override)
+        rec = phot.get(band) or {}
+        s = rec.get("sigma")
+        same = rec.get("mag") == (star.vmag if band == "V" else star.kmag)
+        return 0.0 if not same or s is None or not np.isfinite(s) else float(s)
+
+    notes = []
+    cls = str(luminosity_class).strip().lower()
+    if cls == "auto":
+        plx_cls, why = luminosity_class_from_parallax(star.vmag, star.kmag, star.parallax_mas,
+                                                      extra.get("parallax_error_mas"))
+        if plx_cls is not None:
+            cls = plx_cls
+        notes.append(why)
+    else:
+        notes.append(f"luminosity class {cls} (given)")
+    diam = stellar_angular_diameter_mas(star.vmag, star.kmag, cls, sigma("V"), sigma("K"))
+    for band, value in (("V", star.vmag), ("K", star.kmag)):
+        rec = phot.get(band) or {}
+        if rec.get("source") and rec.get("mag") == value:
+            notes.append(f"{band} from {rec['source']}")
+    notes.append(EXTINCTION_NOTE)
+    note = "; ".join([n for n in [diam.note, *notes] if n])
+    return StellarDiameter(diam.theta_mas, diam.relative_uncertainty, diam.relation,
+                           diam.luminosity_class, diam.v_minus_k, note)
 
 
 def projected_stellar_diameter_km(theta_mas, distance_km):
