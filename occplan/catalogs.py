@@ -110,7 +110,14 @@ def check_magnitude(value, what: str):
 
 CATALOG_COLUMNS = ("source_id", "ra", "dec", "pmra", "pmdec", "parallax", "parallax_error",
                    "radial_velocity", "ref_epoch", "vmag", "rmag", "imag", "jmag", "hmag", "kmag",
-                   "phot_g_mean_mag", "phot_bp_mean_mag", "phot_rp_mean_mag", "bp_rp")
+                   "phot_g_mean_mag", "phot_bp_mean_mag", "phot_rp_mean_mag", "bp_rp",
+                   "ra_error", "dec_error", "pmra_error", "pmdec_error", "ra_dec_corr",
+                   "ra_pmra_corr", "ra_pmdec_corr", "dec_pmra_corr", "dec_pmdec_corr",
+                   "pmra_pmdec_corr")
+# Gaia astrometric errors (read into StarSpec.errors for occplan.uncertainty)
+ERROR_COLUMNS = ("ra_error", "dec_error", "pmra_error", "pmdec_error", "ra_dec_corr",
+                 "ra_pmra_corr", "ra_pmdec_corr", "dec_pmra_corr", "dec_pmdec_corr",
+                 "pmra_pmdec_corr")
 REQUIRED_COLUMNS = ("source_id", "ra", "dec", "pmra", "pmdec", "parallax")
 # Other spellings of the magnitude columns found in common catalogs (2MASS: j_m, h_m, ks_m).
 MAGNITUDE_ALIASES = {"vmag": ("vmag", "v_mag", "v"), "rmag": ("rmag", "r_mag"),
@@ -124,6 +131,9 @@ COLUMN_UNITS = {"ra": "deg", "dec": "deg", "pmra": "mas / yr", "pmdec": "mas / y
                                                          "kmag", "phot_g_mean_mag",
                                                          "phot_bp_mean_mag", "phot_rp_mean_mag",
                                                          "bp_rp")}}
+COLUMN_UNITS.update({"ra_error": "mas", "dec_error": "mas", "pmra_error": "mas / yr",
+                     "pmdec_error": "mas / yr",
+                     **{k: "" for k in ERROR_COLUMNS if k.endswith("_corr")}})
 # band -> occplan column of a measured magnitude
 BAND_COLUMNS = {"V": "vmag", "R": "rmag", "I": "imag", "J": "jmag", "H": "hmag", "K": "kmag"}
 DEFAULT_REF_EPOCH_YR = 2016.0  # Gaia DR3 epoch (common practice: the catalogue's own epoch)
@@ -191,6 +201,7 @@ class StarTable:
     parallax_error_mas: np.ndarray = None  # nan when unknown
     bp_rp: np.ndarray = None
     magnitudes: dict = None
+    errors: dict = None  # Gaia astrometric errors and correlations (ERROR_COLUMNS): arrays
 
     def __post_init__(self):
         n = len(self.ra_deg)
@@ -230,7 +241,10 @@ class StarTable:
                               "source": str(cols["source"][i])}
         if phot:
             extra["photometry"] = phot
-        return StarSpec(ra_deg=float(self.ra_deg[i]), dec_deg=float(self.dec_deg[i]),
+        errors = {k: float(v[i]) for k, v in (self.errors or {}).items() if np.isfinite(v[i])}
+        if np.isfinite(self.parallax_error_mas[i]):
+            errors["parallax_error"] = float(self.parallax_error_mas[i])
+        return StarSpec(errors=errors, ra_deg=float(self.ra_deg[i]), dec_deg=float(self.dec_deg[i]),
                         pm_ra_mas_yr=float(self.pm_ra_mas_yr[i]),
                         pm_dec_mas_yr=float(self.pm_dec_mas_yr[i]),
                         parallax_mas=float(self.parallax_mas[i]), rv_km_s=float(self.rv_km_s[i]),
@@ -244,7 +258,8 @@ class StarTable:
         idx = np.asarray(index)
         kw = {f: getattr(self, f)[idx] for f in _ARRAY_FIELDS}
         mags = {b: {k: v[idx] for k, v in cols.items()} for b, cols in self.magnitudes.items()}
-        return StarTable(**kw, report=self.report, magnitudes=mags)
+        errors = {k: v[idx] for k, v in (self.errors or {}).items()}
+        return StarTable(**kw, report=self.report, magnitudes=mags, errors=errors)
 
     @classmethod
     def from_stars(cls, stars) -> "StarTable":
@@ -281,7 +296,9 @@ class StarTable:
             gmag=col(lambda s: s.extra.get("phot_g_mean_mag", np.nan)),
             report=CatalogReport(path="(in memory)", rows_read=n, stars=n),
             parallax_error_mas=col(lambda s: s.extra.get("parallax_error_mas", np.nan)),
-            bp_rp=col(lambda s: s.extra.get("bp_rp", np.nan)), magnitudes=mags)
+            bp_rp=col(lambda s: s.extra.get("bp_rp", np.nan)), magnitudes=mags,
+            errors={k: col(lambda s, k=k: (s.errors or {}).get(k, np.nan)) for k in ERROR_COLUMNS
+                    if any(k in (s.errors or {}) for s in stars)})
 
 
 def catalog_format(path: Path) -> str:
@@ -502,6 +519,7 @@ def read_catalog_table(path: str | Path, column_map: dict | None = None,
     ra, dec = numbers("ra"), numbers("dec")
     pmra, pmdec, plx = numbers("pmra"), numbers("pmdec"), numbers("parallax")
     plx_err = numbers("parallax_error")
+    errors = {k: numbers(k) for k in ERROR_COLUMNS if column_name(k) is not None}
     rv = numbers("radial_velocity", 0.0)
     epoch = numbers("ref_epoch", DEFAULT_REF_EPOCH_YR)
     if column_name("ref_epoch") is None:
@@ -569,6 +587,7 @@ def read_catalog_table(path: str | Path, column_map: dict | None = None,
         epoch_jd_tt=2451545.0 + (epoch[idx] - 2000.0) * 365.25,
         vmag=magnitudes["V"]["mag"][idx], kmag=magnitudes["K"]["mag"][idx], gmag=gmag[idx],
         report=report, parallax_error_mas=plx_err[idx], bp_rp=colour[idx],
+        errors={k: v[idx] for k, v in errors.items()},
         magnitudes={b: {k: v[idx] for k, v in cols.items()} for b, cols in magnitudes.items()})
 
 

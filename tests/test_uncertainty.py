@@ -131,3 +131,28 @@ def test_event_report_carries_sigmas(setup):
     assert rec["stop_utc"] > max(c["end_utc"] for c in d["crossings"])
     text = summary_text(rep)
     assert "record " in text and "+-" in text and "1-sigma budget" in text
+
+
+def test_gaia_error_columns_reach_the_star(tmp_path):
+    """A catalog with Gaia's astrometric error columns (ECSV with units; pmra_error given in
+    arcsec/yr to check the conversion) fills StarSpec.errors in mas and mas/yr."""
+    from astropy.table import Table
+
+    from occplan.catalogs import read_catalog_table
+
+    t = Table({"source_id": ["1"], "ra": [10.0], "dec": [5.0], "pmra": [1.0], "pmdec": [2.0],
+               "parallax": [0.5], "ra_error": [0.03], "dec_error": [0.04],
+               "pmra_error": [5e-5], "pmdec_error": [0.06], "ra_dec_corr": [0.2]})
+    t["ra"].unit = t["dec"].unit = "deg"
+    t["pmra"].unit = t["pmdec"].unit = "mas / yr"
+    t["parallax"].unit = "mas"
+    t["ra_error"].unit = t["dec_error"].unit = "mas"
+    t["pmra_error"].unit = "arcsec / yr"
+    t["pmdec_error"].unit = "mas / yr"
+    path = tmp_path / "gaia.ecsv"
+    t.write(path, format="ascii.ecsv")
+    star = read_catalog_table(path).star(0)
+    assert star.errors["ra_error"] == pytest.approx(0.03)
+    assert star.errors["pmra_error"] == pytest.approx(0.05)
+    assert star.errors["ra_dec_corr"] == pytest.approx(0.2)
+    assert un.star_covariance_mas2(star, 0.0) is not None
