@@ -759,3 +759,14 @@ def _file_metadata(fmt: str) -> dict:
 
     creator = f"occplan {__version__} (matplotlib)"
     return {"Creator": creator} if fmt == "pdf" else {"Software": creator}
+
+
+def save_axes_figure(ax, path, overwrite: bool = False, dpi: int = 150) -> Path:
+    """Write the figure holding ``ax`` (PNG or PDF, atomically; an existing file only with
+    ``overwrite``)."""
+    from .tables import check_out
+
+    path = Path(path)
+    check_out(path, overwrite)
+    _atomic_save(ax.figure, path, path.suffix.lower()[1:], dpi)
+    return path

@@ -1,0 +1,180 @@
+"""One event seen from a network of stations: combined coverage and the stations to ask for.
+
+Each station's chord crosses the rings at its own ring longitudes and radial speeds.  For a
+set of stations the features are scored once each, over all the stations' crossings
+together, with the same rule as one chord's two sides (:mod:`occplan.ranking`): the best
+crossing counts in full and every further crossing adds in proportion to how far apart in
+ring longitude it samples the feature, (1 - cos dlon)/2, relative to the crossings already
+counted.  So a second station on the same ansa at the same longitude adds little; one that
+samples the feature at another longitude adds much; repeated crossings saturate.
+
+:func:`choose_stations` picks k stations greedily by that combined score, reporting each
+one's marginal gain (what it adds to the stations already chosen), so a team can justify
+each request.  Greedy selection of a monotone submodular objective is within a factor
+1 - 1/e of the best set (Nemhauser, Wolsey & Fisher 1978); the diversity rule makes the
+feature value submodular in the crossings (each extra crossing's discount only grows as the
+set grows).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .ranking import RankSettings, Weights, _feature_value, evaluate_and_score, load_weights
+
+
+@dataclass
+class StationResult:
+    """One station's evaluation of the event."""
+
+    name: str
+    records: list  # crossing records (occplan.ranking.zone_record)
+    score: dict  # its own score (occplan.ranking.score_zones)
+    telescope: str
+    error: str = ""
+
+
+@dataclass
+class NetworkResult:
+    stations: list  # StationResult
+    weights: Weights
+    selection: list = field(default_factory=list)  # [(station, marginal gain, total)]
+
+    def combined_score(self, names) -> float:
+        return combined_score([s for s in self.stations if s.name in set(names)], self.weights)
+
+    def feature_rows(self) -> list[dict]:
+        """Per feature: which stations cross it, at which longitudes, how well."""
+        rows: dict = {}
+        for st in self.stations:
+            for rec in st.records:
+                row = rows.setdefault(rec["name"], {
+                    "feature": rec["name"], "kind": rec.get("feature", ""),
+                    "radius_km": rec["resonance_radius_km"], "stations": [],
+                    "crossings": 0, "resolvable_crossings": 0, "longitudes_deg": [],
+                    "best_resolution_km": math.inf})
+                row["crossings"] += 1
+                row["resolvable_crossings"] += bool(rec.get("resolvable"))
+                if st.name not in row["stations"]:
+                    row["stations"].append(st.name)
+                row["longitudes_deg"].append(round(float(rec.get("ring_longitude_deg", 0.0)), 1))
+                row["best_resolution_km"] = min(row["best_resolution_km"],
+                                                float(rec.get("achievable_resolution_km", math.inf)))
+        out = sorted(rows.values(), key=lambda r: r["radius_km"])
+        for r in out:
+            lon = np.radians(r["longitudes_deg"])
+            # the spread of sampled longitudes: 1 - |mean resultant vector| (0: one longitude)
+            r["longitude_spread"] = float(1.0 - np.hypot(np.mean(np.cos(lon)), np.mean(np.sin(lon))))
+            r["stations"] = ", ".join(r["stations"])
+            r["longitudes_deg"] = ", ".join(f"{x:.1f}" for x in r["longitudes_deg"])
+        return out
+
+
+def combined_score(stations, weights: Weights) -> float:
+    """Score of a set of stations: each feature once, over all their observable crossings
+    (module docstring)."""
+    per_feature: dict = {}
+    from .ranking import zone_factors
+
+    for st in stations:
+        for rec in st.records:
+            if rec.get("usable") is False:
+                continue
+            f = zone_factors(rec, weights)
+            lon = float(rec.get("ring_longitude_deg") or 0.0)
+            per_feature.setdefault(rec["name"], []).append((f["value_if_observable"], lon))
+    div = weights["diversity.second_crossing"]
+    return float(sum(_feature_value(c, div) for c in per_feature.values()))
+
+
+def evaluate_network(body, star, sites, window_s, *, kernels=None, corrections=None,
+                     settings: RankSettings = RankSettings(), weights: Weights | None = None,
+                     progress=None) -> NetworkResult:
+    """Evaluate one event (star, window) from every site of a sites list."""
+    from .errors import GeometryError
+
+    weights = weights or load_weights()
+    out = []
+    for site in sites:
+        try:
+            records, score, tel = evaluate_and_score(body, star, site.observer(), window_s,
+                                                     site=site, kernels=kernels,
+                                                     corrections=corrections, settings=settings,
+                                                     weights=weights)
+            out.append(StationResult(site.name, records, score, tel))
+        except GeometryError as exc:
+            out.append(StationResult(site.name, [], {"score": 0.0}, "", error=str(exc)))
+        if progress:
+            progress(site.name)
+    return NetworkResult(out, weights)
+
+
+def choose_stations(result: NetworkResult, k: int) -> list[tuple[str, float, float]]:
+    """Greedy choice of k stations by the combined score: [(name, marginal gain, total)]."""
+    chosen: list = []
+    total = 0.0
+    left = [s for s in result.stations if s.records]
+    for _ in range(max(0, int(k))):
+        best, best_total = None, total
+        for st in left:
+            t = combined_score([c for c in result.stations if c.name in {x[0] for x in chosen}] + [st],
+                               result.weights)
+            if best is None or t > best_total + 1e-12:
+                best, best_total = st, t
+        if best is None or best_total <= total + 1e-12:
+            break
+        chosen.append((best.name, best_total - total, best_total))
+        total = best_total
+        left = [s for s in left if s is not best]
+    result.selection = chosen
+    return chosen
+
+
+def ring_plane_coverage(result: NetworkResult, body, ax=None):
+    """The rings seen pole-on with every station's crossings of the scored features.
+
+    Each crossing is a marker at (r cos lambda, r sin lambda), lambda the ring longitude
+    (occplan's inertial longitude from the ring plane's ascending node on the ICRF equator);
+    ring regions as annuli; one colour per station.  Returns the Axes (never calls show).
+    """
+    import matplotlib
+    from matplotlib.patches import Wedge
+
+    if ax is None:
+        from matplotlib.backends.backend_agg import FigureCanvasAgg
+        from matplotlib.figure import Figure
+
+        fig = Figure(figsize=(7.5, 7.0))
+        FigureCanvasAgg(fig)
+        ax = fig.add_subplot()
+    for reg in body.rings:  # shade by optical depth, so tenuous rings stay faint
+        ax.add_patch(Wedge((0, 0), reg.outer_km / 1e3, 0, 360, width=(reg.outer_km - reg.inner_km) / 1e3,
+                           facecolor="#4a90c2", alpha=min(0.6, 0.08 + 0.25 * reg.optical_depth),
+                           edgecolor="#4a90c2", lw=0.3))
+    ax.add_patch(matplotlib.patches.Circle((0, 0), body.equatorial_radius_km / 1e3, color="#e8d5a9"))
+    cmap = matplotlib.colormaps["tab10"]
+    for i, st in enumerate(result.stations):
+        recs = [r for r in st.records if r.get("weight", 0) > 0]
+        if not recs:
+            continue
+        r = np.array([x["resonance_radius_km"] for x in recs]) / 1e3
+        lon = np.radians([x.get("ring_longitude_deg", 0.0) for x in recs])
+        ok = np.array([bool(x.get("resolvable")) for x in recs])
+        colour = cmap(i % 10)
+        ax.scatter(r[ok] * np.cos(lon[ok]), r[ok] * np.sin(lon[ok]), s=14, color=colour,
+                   label=f"{st.name} (filled: resolvable)", zorder=3)
+        ax.scatter(r[~ok] * np.cos(lon[~ok]), r[~ok] * np.sin(lon[~ok]), s=14, facecolor="none",
+                   edgecolor=colour, lw=0.8, zorder=3)
+    lim = 1.08 * body.outer_ring_km / 1e3
+    ax.set_xlim(-lim, lim)
+    ax.set_ylim(-lim, lim)
+    ax.set_aspect("equal")
+    ax.set_xlabel("x = r cos(longitude) (10$^3$ km; longitude from the ring plane's node on the ICRF equator)",
+                  fontsize=8)
+    ax.set_ylabel("y = r sin(longitude) (10$^3$ km)", fontsize=8)
+    ax.set_title(f"{body.name}: ring features crossed by each station, rings seen pole-on", fontsize=10)
+    ax.legend(fontsize=7, loc="upper right")
+    return ax
