@@ -81,6 +81,41 @@ def _why_first(rows: list[dict]) -> str:
     return text
 
 
+def _network_page(out, name, body, rows, star_of, sites, settings, weights):
+    """The best event of the season seen from every station: combined coverage, the stations
+    chosen greedily with their marginal gains, and the ring-plane figure."""
+    from .ephemeris import parse_utc, tdb_s_of
+    from .network import choose_stations, evaluate_network, ring_plane_coverage
+    from .plotting import save_axes_figure
+
+    best = next((r for r in rows if r.get("score") and r.get("crossing_start_utc")), None)
+    if best is None:
+        return None
+    star = star_of[(best["star_id"], best["site"])]
+    window = (tdb_s_of(parse_utc(best["crossing_start_utc"])) - 900.0,
+              tdb_s_of(parse_utc(best["crossing_end_utc"])) + 900.0)
+    res = evaluate_network(body, star, sites, window, settings=settings, weights=weights)
+    picked = choose_stations(res, len(sites))
+    rel = f"figures/network_{name}.png"
+    save_axes_figure(ring_plane_coverage(res, body), out / rel, overwrite=True)
+    by_name = {st.name: st for st in res.stations}
+    table = []
+    for i, (station, gain, total) in enumerate(picked, start=1):
+        sc = by_name[station].score
+        table.append({"choice": i, "station": station, "marginal_gain": gain, "combined_score": total,
+                      "own_score": sc.get("score", 0.0),
+                      "features_resolvable": sc.get("features_resolvable", 0),
+                      "deciding_features": sc.get("deciding_features", "")})
+    others = [st.name for st in res.stations if st.name not in {p[0] for p in picked}]
+    text = (f"The season's best {body.name} event (star {best['star_id']}, "
+            f"{best['closest_approach_utc'][:16]} UTC) evaluated from every station. Features "
+            "count once over the network; a further station adds by how far apart in ring "
+            "longitude it samples them. Stations in the order a team would ask for them, each "
+            "with what it adds to those before it"
+            + (f"; {', '.join(others)} would add nothing (no observable feature)." if others else "."))
+    return {"figure": rel, "table": table, "text": text}
+
+
 def run_demo(out_dir: str | Path = "occplan-demo-output", overwrite: bool = False,
              top_events: int | None = None, progress: bool | None = None,
              log=None) -> DemoResult:
@@ -185,7 +220,10 @@ def run_demo(out_dir: str | Path = "occplan-demo-output", overwrite: bool = Fals
             log(f"[{name}] #{i} star {row['star_id']} from {row['site']}: score "
                 f"{row['score']:.2f}, {row['features_resolvable']} of {row['features_crossed']} "
                 "features resolved")
-        bodies_out.append({"body": body.name, "candidates": len(rows),
+        network = _network_page(out, name, body, rows, star_of, sites, settings, weights)
+        if network:
+            result.files.append(out / network["figure"])
+        bodies_out.append({"body": body.name, "candidates": len(rows), "network": network,
                            "ranked": [r for r in rows[:12]], "factor_columns": FACTOR_COLUMNS,
                            "why_first": _why_first(rows), "season_chart": chart_rel,
                            "events": events_out})

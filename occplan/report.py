@@ -111,6 +111,17 @@ def write_report(out_dir: str | Path, campaign: dict, bodies: list[dict]) -> tup
         if b.get("why_first"):
             md += ["**Why the top event ranks first.** " + b["why_first"], ""]
             html_parts.append(f"<p><b>Why the top event ranks first.</b> {html.escape(b['why_first'])}</p>")
+        net = b.get("network")
+        if net:
+            cols_net = [("choice", "#"), ("station", "station"), ("marginal_gain", "adds"),
+                        ("combined_score", "network score"), ("own_score", "own score"),
+                        ("features_resolvable", "features resolved"),
+                        ("deciding_features", "its deciding features")]
+            md += [f"### {b['body']}: the network for the best event", "", net["text"], "",
+                   _md_table(net["table"], cols_net), "", f"![network coverage]({net['figure']})", ""]
+            html_parts += [f"<h3>{html.escape(b['body'])}: the network for the best event</h3>",
+                           f"<p>{html.escape(net['text'])}</p>", _html_table(net["table"], cols_net),
+                           _img(out, net["figure"], "network coverage")]
         if b.get("season_chart"):
             md += [f"![season chart]({b['season_chart']})", ""]
             html_parts.append(_img(out, b["season_chart"], "season chart"))
