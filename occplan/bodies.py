@@ -129,6 +129,19 @@ class Satellite:
     apsidal_rate_deg_day: float | None = None  # observed; None = from the planet's field
     nodal_rate_deg_day: float | None = None
     mean_elements: MeanElements | None = None
+    # co-orbital configurations: ((start_jd_tdb, end_jd_tdb, a_km, mean_motion_deg_day), ...)
+    configurations: tuple = ()
+    configurations_source: str = ""
+
+    def at_epoch(self, jd_tdb: float) -> "Satellite":
+        """The satellite with the orbit of its co-orbital configuration at ``jd_tdb`` (itself
+        when it has none or the date lies outside every listed configuration)."""
+        from dataclasses import replace as _replace
+
+        for start, end, a_km, n in self.configurations:
+            if start <= jd_tdb < end:
+                return _replace(self, a_km=a_km, mean_motion_deg_day=n)
+        return self
 
 
 @dataclass(frozen=True)
@@ -152,6 +165,15 @@ class Body:
     @property
     def key(self) -> str:
         return self.name.lower()
+
+    def at_epoch(self, jd_tdb: float | None) -> "Body":
+        """The body with each co-orbital satellite in its configuration at ``jd_tdb``."""
+        if jd_tdb is None or not any(s.configurations for s in self.satellites):
+            return self
+        from dataclasses import replace as _replace
+
+        return _replace(self, satellites=tuple(sorted((s.at_epoch(jd_tdb) for s in self.satellites),
+                                                      key=lambda s: s.a_km)))
 
     @property
     def inner_ring_km(self) -> float:
@@ -284,6 +306,10 @@ def _parse(data: dict, path: str) -> Body:
                     apsidal_rate_deg_day=s.get("apsidal_rate_deg_day"),
                     nodal_rate_deg_day=s.get("nodal_rate_deg_day"),
                     mean_elements=mean,
+                    configurations=tuple(
+                        (float(c["start_jd_tdb"]), float(c["end_jd_tdb"]), float(c["a_km"]),
+                         float(c["mean_motion_deg_day"])) for c in s.get("configurations", [])),
+                    configurations_source=str(s.get("configurations_source", "")),
                 )
             )
         body = Body(

@@ -24,14 +24,15 @@ SAFETY_NOTE = ("Pointing optics near the Sun can blind an observer and destroy a
 
 
 def select_features(body, max_order: int = 3, sigma_g_cm2=None, viscosity_cm2_s=None,
-                    settings=None):
+                    settings=None, epoch_jd_tdb: float | None = None):
     """The features an event is checked against: the body's whole feature catalogue
     (:func:`occplan.features.body_features`: waves that fit in their ring, resonance-held
     edges, narrow rings, overlap regions, corotation zones), every kind kept."""
     from .features import body_features
 
     return body_features(body, max_order=int(max_order), sigma_g_cm2=sigma_g_cm2,
-                         viscosity_cm2_s=viscosity_cm2_s, settings=settings)
+                         viscosity_cm2_s=viscosity_cm2_s, settings=settings,
+                         epoch_jd_tdb=epoch_jd_tdb)
 
 
 @dataclass
@@ -279,7 +280,9 @@ def evaluate_event(body, star, observer: Observer, window, *, telescope=None, ke
                                             "applied to the star's transmitted light (an "
                                             "extended background scintillates far less)",
                            "feature_snr": ph.FEATURE_SNR_FORMULA})
-    features = select_features(body, max_order, sigma_g_cm2, viscosity_cm2_s)
+    # co-orbital satellites (Janus/Epimetheus) in their configuration at the event
+    features = select_features(body, max_order, sigma_g_cm2, viscosity_cm2_s,
+                               epoch_jd_tdb=J2000_TDB_JD + float(np.mean([t0, t1])) / 86400.0)
     hidden = hidden_intervals(track)
     zones = zone_crossings(track, features, cadence_s=tel.cadence_s, fresnel_km=fresnel,
                            stellar_diameter_km=resolution["stellar_diameter_km"],

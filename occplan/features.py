@@ -654,19 +654,23 @@ _CACHE: dict = {}
 
 def body_features(body, max_order: int = 3, sigma_g_cm2=None, viscosity_cm2_s=None,
                   max_m: int | None = None, settings: FeatureSettings | None = None,
-                  rmin_km=None, rmax_km=None, satellites=None) -> list[Feature]:
+                  rmin_km=None, rmax_km=None, satellites=None,
+                  epoch_jd_tdb: float | None = None) -> list[Feature]:
     """A body's feature catalogue (resonances of order <= ``max_order``), cached.
 
     Parameters as :func:`occplan.resonances.find_resonances`; ``settings`` as
-    :func:`derive_features`.
+    :func:`derive_features`; ``epoch_jd_tdb`` puts co-orbital satellites (Janus and
+    Epimetheus) in their configuration at that date (:meth:`occplan.bodies.Body.at_epoch`).
     """
     from .resonances import DEFAULT_MAX_M, find_resonances
 
-    body = get_body(body)
+    body = get_body(body).at_epoch(epoch_jd_tdb)
     settings = settings or load_settings()
     max_m = DEFAULT_MAX_M if max_m is None else max_m
+    config = tuple((s.name, s.a_km, s.mean_motion_deg_day) for s in body.satellites
+                   if s.configurations)
     key = (body.path, body.name, int(max_order), sigma_g_cm2, viscosity_cm2_s, int(max_m),
-           settings, rmin_km, rmax_km, tuple(satellites or ()))
+           settings, rmin_km, rmax_km, tuple(satellites or ()), config)
     if key not in _CACHE:
         res = find_resonances(body, rmin_km=rmin_km, rmax_km=rmax_km, max_order=max_order,
                               satellites=satellites, sigma_g_cm2=sigma_g_cm2,

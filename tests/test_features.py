@@ -181,3 +181,26 @@ def test_catalogue_from_the_terms_near_the_rings_is_the_same():
     every = derive_features(body, find_resonances(body))
     near = body_features(body)
     assert [(f.name, f.torque_dyn_cm) for f in every] == [(f.name, f.torque_dyn_cm) for f in near]
+
+
+def test_janus_epimetheus_configuration_follows_the_date():
+    """Janus was on the inner orbit 2006-2010 and the outer 2010-2014 (El Moutamid et al.
+    2016; swap on 2010-01-21): its 6:5 ILR lies farther in when Janus is outer (slower)
+    and the co-orbital feature moves by tens of km; Epimetheus moves the other way."""
+    from occplan.resonances import find_resonances
+
+    saturn = get_body("saturn")
+    radii = {}
+    for label, jd in (("2008", 2454466.5), ("2012", 2455927.5)):
+        res = find_resonances(saturn.at_epoch(jd), rmin_km=134000, rmax_km=134600,
+                              satellites=["Janus", "Epimetheus"], max_order=1, max_m=10)
+        radii[label] = {(r.satellite, r.kind): r.resonance_radius_km for r in res if r.label == "6:5"}
+    d_janus = radii["2012"][("Janus", "ILR")] - radii["2008"][("Janus", "ILR")]
+    d_epi = radii["2012"][("Epimetheus", "ILR")] - radii["2008"][("Epimetheus", "ILR")]
+    # a moves by +21 km (Janus) and -75 km (Epimetheus); the resonance follows a
+    assert 10 < d_janus < 30 and -90 < d_epi < -55
+    f08 = [f for f in body_features(saturn, epoch_jd_tdb=2454466.5)
+           if f.name == "Janus/Epimetheus 6:5 density wave"][0]
+    f12 = [f for f in body_features(saturn, epoch_jd_tdb=2455927.5)
+           if f.name == "Janus/Epimetheus 6:5 density wave"][0]
+    assert f08.resonance_radius_km != f12.resonance_radius_km
