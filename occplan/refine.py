@@ -4,21 +4,17 @@ The same physics as :func:`occplan.geometry.exact_geometry` and the same search 
 per-star refinement (:func:`occplan.search.refine_candidate`), arranged for thousands of
 stars:
 
-- **Nodes on one grid.**  Every run (a star and a stretch of the planet's path where it is
-  within reach) gets spline nodes on a common grid ``h`` = path step / 30 (120 s for the
-  1 h path nodes), two more on each side, like :func:`occplan.geometry.track_nodes`.  Runs
-  share the grid's times, so whatever depends on time only is evaluated once per grid node:
-  the Earth, the Sun, the planet at reception (first light-time estimate, the Sun's
-  differential deflection) and the planet centre at its own ring time t_c with its first
-  and second derivative (central differences, +-60 s).
+- **Nodes on one grid, ephemeris once.**  Every run (a star and a stretch of the planet's
+  path where it is within reach) gets spline nodes on a common grid ``h`` = path step / 30
+  (120 s for the 1 h path nodes), two more on each side, like
+  :func:`occplan.geometry.track_nodes`.  The Earth, the Sun and the planet centre are
+  evaluated once, every 600 s where some run needs them (:class:`PathEphemeris`), and
+  interpolated at every node and ring time by Lagrange cubics (error below 1e-5 km).
 - **Per (star, node)**, vectorised over all pairs: the star's astrometric direction (the
   space-motion formula of skyfield's ``Star.observe``: position and velocity from
   parallax, proper motion and radial velocity, light-time difference dt = u.O/c), the Sun's
-  deflection, three light-time passes to the ring-plane intercept with the planet centre
-  at the star's own ring time t_r from the quadratic Taylor series about t_c
-  (|t_r - t_c| <= R_out / (c |sin B*|), seconds; the cubic term is below a millimetre even
-  for the 2.6 h a clipped, meaningless intercept allows), the planet's deflection, the
-  intercept and the sky plane.
+  differential deflection, three light-time passes to the ring-plane intercept, the
+  planet's deflection, the intercept and the sky plane.
 - **Splines of all runs at once.**  Cubic splines (not-a-knot, as in the track) on the
   node index, one scipy call per node count; their coefficients are gathered per segment
   so any (run, time) can be evaluated in one vectorised expression.
@@ -44,10 +40,10 @@ from .geometry import (EDGE_ON_LIMIT_DEG, LIGHT_TIME_PASSES, Corrections, _check
                        _sin_elevation, intercept_reach_km)
 
 GRID_PER_PATH_STEP = 30  # spline nodes per path node step (120 s for 1 h path nodes)
-TAYLOR_STEP_S = 60.0
+EPHEMERIS_STEP_S = 600.0
 SKY_SAMPLE_S = 30.0  # spacing of the sky-distance samples (as the per-star refinement)
 GOLDEN_TOL_S = 0.01
-PAIR_BLOCK = 200_000  # (star, node) pairs evaluated at a time: bounds the memory (~0.5 GB)
+PAIR_BLOCK = 100_000  # (star, node) pairs evaluated at a time: bounds the memory (~250 MB)
 # skyfield's constants for the star's space motion (skyfield.constants; IAU 2012 au)
 AU_KM = 149597870.700
 C_AU_DAY = SPEED_OF_LIGHT_KM_S * SECONDS_PER_DAY / AU_KM
@@ -63,7 +59,13 @@ def _dot(a, b):
 
 
 def _unit(v):
-    return v / np.linalg.norm(v, axis=0)
+    return v / np.sqrt(_dot(v, v))
+
+
+def _cross(a, b):
+    """a x b for (3, N) arrays (np.cross is several times slower on these shapes)."""
+    return np.array([a[1] * b[2] - a[2] * b[1], a[2] * b[0] - a[0] * b[2],
+                     a[0] * b[1] - a[1] * b[0]])
 
 
 # --------------------------------------------------------------------------- star motion
@@ -103,59 +105,93 @@ def star_distance_km(table) -> np.ndarray:
     return np.where(np.isfinite(p) & (p > 0.0), d, np.inf)
 
 
-# --------------------------------------------------------------------------- shared nodes
+# --------------------------------------------------------------------------- shared ephemeris
 
 
-def node_ephemeris(eph, body, tdb_s, corrections: Corrections):
-    """Everything at the grid nodes that does not depend on the star (see the module notes)."""
-    t = np.asarray(tdb_s, dtype=float)
-    bo = corrections.barycentre_only
+class PathEphemeris:
+    """The geocentre, the Sun and the planet centre (barycentric ICRF, km) tabulated every
+    ``EPHEMERIS_STEP_S`` where the runs need them, interpolated by four-point Lagrange cubics.
+
+    Notes
+    -----
+    The cubic's error is below h^4 |x^(4)| / 40 (h the step): with the fastest terms in the
+    table, the Earth's monthly wobble about the Earth-Moon barycentre (4,670 km at 2.66e-6
+    rad/s) and Io's pull on Jupiter's centre (about 20 km at 4.1e-5 rad/s), that is under
+    1e-5 km at 600 s (``tests/test_refine.py`` compares with the exact ephemeris).  Each run
+    [a, b] needs [a - (2 D + 10 R_out)/c, b] (the light time to the farthest intercept
+    looked at, :func:`occplan.geometry.intercept_reach_km`) plus its pads.
+    """
+
+    def __init__(self, eph, body, starts_s, ends_s, corrections: Corrections,
+                 step_s: float = None, max_light_time_s: float = 0.0):
+        step = EPHEMERIS_STEP_S if step_s is None else float(step_s)
+        self.step, self.origin = step, float(np.min(starts_s)) - max_light_time_s
+        m_lo = np.floor((np.asarray(starts_s) - max_light_time_s - self.origin) / step).astype(np.int64) - 2
+        m_hi = np.ceil((np.asarray(ends_s) - self.origin) / step).astype(np.int64) + 3
+        self.base = int(m_lo.min())
+        size = int(m_hi.max()) - self.base + 1
+        diff = np.zeros(size + 1, dtype=np.int64)
+        np.add.at(diff, m_lo - self.base, 1)
+        np.add.at(diff, m_hi - self.base + 1, -1)
+        need = np.cumsum(diff)[:-1] > 0
+        self.index = np.full(size, -1, dtype=np.int64)
+        self.index[need] = np.arange(int(need.sum()))
+        t = self.origin + (self.base + np.nonzero(need)[0]) * step
+        when = time_from_tdb_s(t)
+        self.obs = eph.observer_km(Observer.geocentre(), when).reshape(3, -1)
+        self.planet = eph.planet_km(body, when, barycentre_only=corrections.barycentre_only).reshape(3, -1)
+        self.sun = eph.sun_km(when).reshape(3, -1) if corrections.deflection else None
+
+    def __call__(self, table, tdb_s):
+        x = (np.asarray(tdb_s, dtype=float) - self.origin) / self.step
+        m0 = np.floor(x).astype(np.int64)
+        s = x - m0
+        w = ((-s * (s - 1) * (s - 2) / 6.0), (s + 1) * (s - 1) * (s - 2) / 2.0,
+             (-(s + 1) * s * (s - 2) / 2.0), (s + 1) * s * (s - 1) / 6.0)
+        out = 0.0
+        for k, wk in enumerate(w):
+            idx = self.index[m0 - 1 + k - self.base]
+            if np.any(idx < 0):
+                raise RuntimeError("ephemeris table does not cover the time asked")
+            out = out + table[:, idx] * wk
+        return out
+
+
+def path_ephemeris(eph, body, starts_s, ends_s, corrections: Corrections) -> PathEphemeris:
+    """A :class:`PathEphemeris` for runs spanning [starts, ends] (TDB s)."""
+    t = np.array([np.min(starts_s), np.max(ends_s)])
     when = time_from_tdb_s(t)
-    obs = eph.observer_km(Observer.geocentre(), when).reshape(3, -1)
-    planet = eph.planet_km(body, when, barycentre_only=bo).reshape(3, -1)
-    out = {"obs": obs, "t_ring0": t - np.linalg.norm(planet - obs, axis=0) / SPEED_OF_LIGHT_KM_S}
-    if corrections.deflection:
-        sun = eph.sun_km(when).reshape(3, -1)
-        out["e_vec"] = obs - sun
-        out["planet_deflection"] = _deflection_by_sun(_unit(planet - obs), _unit(planet - sun),
-                                                      out["e_vec"])
-    tc = out["t_ring0"]
-    for _ in range(2):
-        p = eph.planet_km(body, time_from_tdb_s(tc), barycentre_only=bo).reshape(3, -1)
-        tc = t - np.linalg.norm(p - obs, axis=0) / SPEED_OF_LIGHT_KM_S
-    three = eph.planet_km(body, time_from_tdb_s(np.concatenate(
-        [tc - TAYLOR_STEP_S, tc, tc + TAYLOR_STEP_S])), barycentre_only=bo).reshape(3, 3, -1)
-    pm, p0, pp = three[:, 0], three[:, 1], three[:, 2]
-    out["t_c"] = tc
-    out["p0"] = p0
-    out["v"] = (pp - pm) / (2.0 * TAYLOR_STEP_S)
-    out["a"] = (pp - 2.0 * p0 + pm) / TAYLOR_STEP_S**2
-    return out
+    dist = np.linalg.norm(eph.planet_km(body, when).reshape(3, -1)
+                          - eph.observer_km(Observer.geocentre(), when).reshape(3, -1), axis=0)
+    d_max = float(dist.max()) + 2.0 * AU_KM  # the Earth moves the distance by < 2 au
+    lt = float(intercept_reach_km(body, d_max)) / SPEED_OF_LIGHT_KM_S + EPHEMERIS_STEP_S
+    return PathEphemeris(eph, body, starts_s, ends_s, corrections, max_light_time_s=lt)
 
 
-def pair_geometry(body, shared, ni, t, pos, vel, epoch_jd, star_dist_km,
+def pair_geometry(body, ephem: PathEphemeris, t, pos, vel, epoch_jd, star_dist_km,
                   corrections: Corrections):
-    """Exact geometry at (star, node) pairs: node index ``ni`` into ``shared``, time ``t``
-    (TDB s), the pairs' star position/velocity (3, P), epochs (P,) and distances (P,).
+    """Exact geometry at (star, node) pairs: times ``t`` (TDB s), the pairs' star
+    position/velocity (3, P), epochs (P,) and distances (P,).
 
     Returns a (len(_Q), P) array of the spline quantities and the ``valid`` flags, as
     :func:`occplan.geometry.exact_geometry` defines them.
     """
-    o = shared["obs"][:, ni]
+    o = ephem(ephem.obs, t)
+    planet = ephem(ephem.planet, t)
     # astrometric star direction (skyfield Star.observe from the geocentre)
     o_au = o / AU_KM
     u0 = pos / np.linalg.norm(pos, axis=0)
     dt_day = _dot(u0, o_au) / C_AU_DAY
     star = pos + vel * (J2000_TDB_JD + t / SECONDS_PER_DAY + dt_day - epoch_jd)
     s = _unit(star - o_au)
+    t_ring = t - np.linalg.norm(planet - o, axis=0) / SPEED_OF_LIGHT_KM_S
     if corrections.deflection:
-        s = _unit(s + _deflection_by_sun(s, s, shared["e_vec"][:, ni])
-                  - shared["planet_deflection"][:, ni])
-    tc, p0, v, a = shared["t_c"][ni], shared["p0"][:, ni], shared["v"][:, ni], shared["a"][:, ni]
-    t_ring = shared["t_ring0"][ni]
+        sun = ephem(ephem.sun, t)
+        e_vec = o - sun
+        s = _unit(s + _deflection_by_sun(s, s, e_vec)
+                  - _deflection_by_sun(_unit(planet - o), _unit(planet - sun), e_vec))
     for _ in range(LIGHT_TIME_PASSES):
-        dtc = t_ring - tc
-        planet = p0 + v * dtc + 0.5 * a * dtc * dtc
+        planet = ephem(ephem.planet, t_ring)
         n = body.pole.unit_vector(J2000_TDB_JD + t_ring / SECONDS_PER_DAY).reshape(3, -1)
         lam = _dot(n, planet - o) / _sin_elevation(n, s)
         reach = intercept_reach_km(body, np.linalg.norm(planet - o, axis=0))
@@ -177,15 +213,14 @@ def pair_geometry(body, shared, ni, t, pos, vel, epoch_jd, star_dist_km,
     ray_length = _dot(origin - o, s) + lam
     reach = np.minimum(intercept_reach_km(body, distance), star_dist_km)
     valid = (qs > 0.0) & (ray_length > 0.0) & (ray_length < reach) & np.all(np.isfinite(rho), axis=0)
-    z = np.zeros_like(n)
-    z[2] = 1.0
-    node = _unit(np.cross(z, n, axis=0))
-    perp = np.cross(n, node, axis=0)
-    east = np.cross(z, s, axis=0)
-    pole_star = np.linalg.norm(east, axis=0) < 1e-12
+    zero = np.zeros_like(n[0])
+    node = _unit(np.array([-n[1], n[0], zero]))  # z x n
+    perp = _cross(n, node)
+    east = np.array([-s[1], s[0], zero])  # z x s
+    pole_star = np.sqrt(_dot(east, east)) < 1e-12
     east[:, pole_star] = np.array([0.0, 1.0, 0.0])[:, None]
     east = _unit(east)
-    north = np.cross(s, east, axis=0)
+    north = _cross(s, east)
     pole_angle = np.arctan2(_dot(n, east), _dot(n, north))
     out = np.empty((len(_Q), t.size))
     out[0], out[1] = _dot(rho, node), _dot(rho, perp)
@@ -218,7 +253,7 @@ class RunSplines:
             c = CubicSpline(np.arange(m, dtype=float), y, axis=2).c  # (4, m-1, q, g)
             s0 = self.soff[lo]
             coef[:, s0:s0 + g * (m - 1)] = c.transpose(0, 3, 1, 2).reshape(4, g * (m - 1), q)
-        self.coef = coef
+        self.coef = coef  # (power, segment, quantity)
 
     def _locate(self, run, x):
         i = np.clip(np.floor(x).astype(int), 0, self.n[run] - 2)
@@ -226,12 +261,14 @@ class RunSplines:
 
     def __call__(self, run, x, keys=_Q, deriv=False):
         seg, s, _ = self._locate(run, x)
-        idx = [_QI[k] for k in keys]
-        c = self.coef[:, seg][:, :, idx]  # (4, M, K)
-        s = s[:, None]
-        if deriv:
-            return ((3.0 * c[0] * s + 2.0 * c[1]) * s + c[2]).T
-        return (((c[0] * s + c[1]) * s + c[2]) * s + c[3]).T
+        out = np.empty((len(keys), s.size))
+        for i, key in enumerate(keys):
+            c = self.coef[:, seg, _QI[key]]
+            if deriv:
+                out[i] = (3.0 * c[0] * s + 2.0 * c[1]) * s + c[2]
+            else:
+                out[i] = ((c[0] * s + c[1]) * s + c[2]) * s + c[3]
+        return out
 
     def valid(self, run, x):
         _, _, node = self._locate(run, x)
@@ -267,7 +304,7 @@ def _segments(counts):
 
 def refine_runs(eph, body, stars, run_star, run_a_s, run_b_s, grid_step_s, window,
                 corrections: Corrections, margin_km: float, limit_km: float,
-                origin_s: float | None = None):
+                origin_s: float | None = None, ephem: PathEphemeris | None = None):
     """Geocentric closest approaches of all runs (see the module notes).
 
     Parameters
@@ -278,6 +315,7 @@ def refine_runs(eph, body, stars, run_star, run_a_s, run_b_s, grid_step_s, windo
     window : (t0, t1) TDB s; closest approaches outside are dropped
     limit_km : sky-distance threshold (R_E + margin)
     origin_s : a time on the grid (default: the first run's start minus two steps)
+    ephem : a :class:`PathEphemeris` covering the runs (default: built for them)
 
     Returns
     -------
@@ -303,8 +341,9 @@ def refine_runs(eph, body, stars, run_star, run_a_s, run_b_s, grid_step_s, windo
     run_star, m_a, n = run_star[order], m_a[order], n[order]
     node_run, node_k, _ = _segments(n)
     node_m = m_a[node_run] - 2 + node_k
-    uniq, node_u = np.unique(node_m, return_inverse=True)
-    shared = node_ephemeris(eph, body, origin + uniq * h, corrections)
+    if ephem is None:
+        ephem = path_ephemeris(eph, body, origin + (m_a - 2) * h, origin + (m_a + n - 3) * h,
+                               corrections)
     pos, vel = star_motion(stars)
     epoch = np.asarray(stars.epoch_jd_tt, dtype=float)
     sdist = star_distance_km(stars)
@@ -314,9 +353,8 @@ def refine_runs(eph, body, stars, run_star, run_a_s, run_b_s, grid_step_s, windo
         sl = slice(lo, lo + PAIR_BLOCK)
         j = run_star[node_run[sl]]
         values[:, sl], valid[sl] = pair_geometry(
-            body, shared, node_u[sl], origin + node_m[sl] * h, pos[:, j], vel[:, j], epoch[j],
-            sdist[j], corrections)
-    del shared
+            body, ephem, origin + node_m[sl] * h, pos[:, j], vel[:, j], epoch[j], sdist[j],
+            corrections)
 
     # rings edge-on at a node of a run (|B| < 0.01 deg, or B changing sign): skip the run
     b_nodes = values[_QI["opening_angle"]]

@@ -117,7 +117,8 @@ def distance_to_ellipse(x, y, a: float, b):
     0 inside.  Outside, the closest point is (a^2 x/(t + a^2), b^2 y/(t + b^2)) with t > 0 the
     root of F(t) = (a x/(t + a^2))^2 + (b y/(t + b^2))^2 - 1 (Lagrange condition of the
     projection; e.g. Eberly, "Distance from a point to an ellipse", 2011).  F is convex and
-    decreasing for t > 0, so Newton's method from t = 0 climbs to the root monotonically.
+    decreasing for t > 0, so Newton's method from below the root (t = 0, or the lower bound
+    sqrt(a^2 x^2 + b^2 y^2) - max(a, b)^2) climbs to it monotonically.
     ``b`` may be an array (the ring ellipse's short axis changes with B*).
     """
     x = np.abs(np.asarray(x, dtype=float))
@@ -126,14 +127,25 @@ def distance_to_ellipse(x, y, a: float, b):
     a2, b2 = a * a, b * b
     inside = (x / a) ** 2 + (y / b) ** 2 <= 1.0
     t = np.zeros_like(x)
+    # Newton on the points still moving only (the others have converged)
+    shape = x.shape
+    x, y, b2, inside, t = (np.ravel(v) for v in (x, y, b2, inside, t))
+    b = np.ravel(np.ascontiguousarray(b))
+    act = np.nonzero(~inside)[0]
+    # start at a lower bound of the root: F(t) >= (a^2 x^2 + b^2 y^2)/(t + max(a, b)^2)^2 - 1
+    t[act] = np.maximum(np.sqrt((a * x[act]) ** 2 + (b[act] * y[act]) ** 2)
+                        - np.maximum(a2, b2[act]), 0.0)
     for _ in range(60):
-        ex, ey = a * x / (t + a2), b * y / (t + b2)
-        f = ex * ex + ey * ey - 1.0
-        df = -2.0 * (ex * ex / (t + a2) + ey * ey / (t + b2))
-        step = np.where(inside | (df == 0), 0.0, -f / np.where(df == 0, -1.0, df))
-        t = t + np.maximum(step, 0.0)
-        if np.all(np.abs(step) <= 1e-12 * (t + a2)):
+        if act.size == 0:
             break
+        xa, ya, ba, b2a, ta = x[act], y[act], b[act], b2[act], t[act]
+        ex, ey = a * xa / (ta + a2), ba * ya / (ta + b2a)
+        f = ex * ex + ey * ey - 1.0
+        df = -2.0 * (ex * ex / (ta + a2) + ey * ey / (ta + b2a))
+        step = np.where(df == 0, 0.0, -f / np.where(df == 0, -1.0, df))
+        t[act] = ta + np.maximum(step, 0.0)
+        act = act[np.abs(step) > 1e-12 * (ta + a2)]
+    x, y, b2, inside, t = (v.reshape(shape) for v in (x, y, b2, inside, t))
     xc, yc = a2 * x / (t + a2), b2 * y / (t + b2)
     return np.where(inside, 0.0, np.hypot(x - xc, y - yc))
 
@@ -646,7 +658,7 @@ def refine_all(eph, body, path, stars, rows, reach, window, corrections, margin_
     """Stage 2 for every run of ``reach`` (stars of ``stars``, catalog rows ``rows``), in
     blocks of about :data:`REFINE_PAIRS` spline nodes ordered by time
     (:func:`occplan.refine.refine_runs`).  Returns (candidates, skipped)."""
-    from .refine import refine_runs
+    from .refine import path_ephemeris, refine_runs
 
     n_path = path.tdb_s.size
     a = path.tdb_s[np.maximum(reach.run_first - 1, 0)]
@@ -658,6 +670,7 @@ def refine_all(eph, body, path, stars, rows, reach, window, corrections, margin_
     nodes = np.rint((b - a) / h)[order] + 5
     block = np.floor(np.cumsum(nodes) / REFINE_PAIRS).astype(int)
     cuts = np.r_[0, np.nonzero(np.diff(block))[0] + 1, order.size]
+    ephem = path_ephemeris(eph, body, a - 2 * h, b + 2 * h, corrections)
     candidates, skipped = [], []
     bar = _progress(len(cuts) - 1, "refining candidates", progress)
     try:
@@ -665,7 +678,7 @@ def refine_all(eph, body, path, stars, rows, reach, window, corrections, margin_
             sel = order[lo:hi]
             got, skip = refine_runs(eph, body, stars, reach.run_star[sel], a[sel], b[sel], h,
                                     window, corrections, margin_km, EARTH_RADIUS_KM + margin_km,
-                                    origin_s=path.tdb_s[0] - 2 * h)
+                                    origin_s=path.tdb_s[0] - 2 * h, ephem=ephem)
             skipped += [(str(stars.source_id[j]), reason) for j, reason in skip]
             for i, j in enumerate(got["star"].tolist()):
                 candidates.append(Candidate(
