@@ -123,9 +123,12 @@ class PathEphemeris:
     """
 
     def __init__(self, eph, body, starts_s, ends_s, corrections: Corrections,
-                 step_s: float = None, max_light_time_s: float = 0.0):
+                 step_s: float = None, max_light_time_s: float = 0.0, anchor_s: float = None):
         step = EPHEMERIS_STEP_S if step_s is None else float(step_s)
-        self.step, self.origin = step, float(np.min(starts_s)) - max_light_time_s
+        first = float(np.min(starts_s)) - max_light_time_s
+        # on a grid through anchor_s: the same stars give the same numbers whatever the batch
+        anchor = first if anchor_s is None else float(anchor_s)
+        self.step, self.origin = step, anchor + math.floor((first - anchor) / step) * step
         m_lo = np.floor((np.asarray(starts_s) - max_light_time_s - self.origin) / step).astype(np.int64) - 2
         m_hi = np.ceil((np.asarray(ends_s) - self.origin) / step).astype(np.int64) + 3
         self.base = int(m_lo.min())
@@ -157,7 +160,8 @@ class PathEphemeris:
         return out
 
 
-def path_ephemeris(eph, body, starts_s, ends_s, corrections: Corrections) -> PathEphemeris:
+def path_ephemeris(eph, body, starts_s, ends_s, corrections: Corrections,
+                   anchor_s: float = None) -> PathEphemeris:
     """A :class:`PathEphemeris` for runs spanning [starts, ends] (TDB s)."""
     t = np.array([np.min(starts_s), np.max(ends_s)])
     when = time_from_tdb_s(t)
@@ -165,7 +169,8 @@ def path_ephemeris(eph, body, starts_s, ends_s, corrections: Corrections) -> Pat
                           - eph.observer_km(Observer.geocentre(), when).reshape(3, -1), axis=0)
     d_max = float(dist.max()) + 2.0 * AU_KM  # the Earth moves the distance by < 2 au
     lt = float(intercept_reach_km(body, d_max)) / SPEED_OF_LIGHT_KM_S + EPHEMERIS_STEP_S
-    return PathEphemeris(eph, body, starts_s, ends_s, corrections, max_light_time_s=lt)
+    return PathEphemeris(eph, body, starts_s, ends_s, corrections, max_light_time_s=lt,
+                         anchor_s=anchor_s)
 
 
 def pair_geometry(body, ephem: PathEphemeris, t, pos, vel, epoch_jd, star_dist_km,

@@ -670,7 +670,7 @@ def refine_all(eph, body, path, stars, rows, reach, window, corrections, margin_
     nodes = np.rint((b - a) / h)[order] + 5
     block = np.floor(np.cumsum(nodes) / REFINE_PAIRS).astype(int)
     cuts = np.r_[0, np.nonzero(np.diff(block))[0] + 1, order.size]
-    ephem = path_ephemeris(eph, body, a - 2 * h, b + 2 * h, corrections)
+    ephem = path_ephemeris(eph, body, a - 2 * h, b + 2 * h, corrections, anchor_s=path.tdb_s[0])
     candidates, skipped = [], []
     bar = _progress(len(cuts) - 1, "refining candidates", progress)
     try:
@@ -693,6 +693,51 @@ def refine_all(eph, body, path, stars, rows, reach, window, corrections, margin_
     return candidates, skipped
 
 
+def search_radius_rad(path: PlanetPath) -> float:
+    """Largest angle from the path at which a star (at mid-window) can be a candidate,
+    before its own motion allowance (the prefilter's circle plus half a node step)."""
+    return path.theta_rad + 0.5 * float(path.step_rad.max(initial=0.0)) + 1e-9
+
+
+def years_from_epoch(epoch_yr: float, t0_s: float, t1_s: float) -> float:
+    """Largest time (Julian years) between a catalog epoch and the window ends."""
+    ep = (epoch_yr - 2000.0) * JULIAN_YEAR_DAYS * 86400.0
+    return max(abs(t0_s - ep), abs(t1_s - ep)) / 86400.0 / JULIAN_YEAR_DAYS
+
+
+def search_path(eph, body, path: PlanetPath, chunks, window, corrections: Corrections,
+                margin_km: float, progress=None, chunk_rows: int = DEFAULT_CHUNK_ROWS):
+    """Stages 1 and 2 over StarTable chunks (a StarTable is cut into ``chunk_rows``).
+
+    Returns (candidates, skipped, (stars searched, prefiltered, screened)).
+    """
+    tree = cKDTree(path.unit)
+    n_searched, parts, row_parts, runs = 0, [], [], []
+    n_hits = 0
+    for chunk in iter_chunks(chunks, chunk_rows):
+        reach = prefilter(path, chunk, tree)
+        if reach.rows.size:
+            parts.append(chunk.subset(reach.rows))
+            row_parts.append(reach.rows + n_searched)
+            runs.append((reach.run_star + n_hits, reach.run_first, reach.run_last))
+            n_hits += reach.rows.size
+        n_searched += len(chunk)
+    if not parts:
+        return [], [], (n_searched, 0, 0)
+    hits = concat_tables(parts)
+    rows = np.concatenate(row_parts)
+    reach = Reach(np.arange(n_hits), *(np.concatenate(x) for x in zip(*runs)))
+    pre = screen(path, hits, reach, EARTH_RADIUS_KM + margin_km)
+    stars = hits.subset(pre.rows)
+    rows = rows[pre.rows]
+    check_stars(stars)
+    candidates, skipped = [], []
+    if pre.run_star.size:
+        candidates, skipped = refine_all(eph, body, path, stars, rows, pre, window, corrections,
+                                         margin_km, progress)
+    return candidates, skipped, (n_searched, n_hits, int(pre.rows.size))
+
+
 def check_window(body, window, kernels=None) -> tuple[float, float]:
     """The window in TDB seconds, after checking it against the kernels' coverage."""
     eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
@@ -705,7 +750,8 @@ def check_window(body, window, kernels=None) -> tuple[float, float]:
 def search_candidates(body, table, window, *, kernels=None,
                       corrections: Corrections = Corrections(), margin_km: float = DEFAULT_MARGIN_KM,
                       node_step_s: float = DEFAULT_NODE_STEP_S, pad_s: float = DEFAULT_PAD_S,
-                      progress=None, chunk_rows: int = DEFAULT_CHUNK_ROWS):
+                      progress=None, chunk_rows: int = DEFAULT_CHUNK_ROWS, engine: str = "local",
+                      scheduler: str | None = None, workers: int = 2, dask_processes: bool = True):
     """Geocentric candidates of a star table over a window (stages 1 and 2).
 
     Parameters
@@ -718,12 +764,18 @@ def search_candidates(body, table, window, *, kernels=None,
         UTC ISO strings or TDB seconds past J2000.
     margin_km : float
         Added to the Earth's radius in the threshold (module docstring).
+    engine : "local" or "dask"
+        "dask" runs stages 1 and 2 per catalog piece on a Dask cluster
+        (:mod:`occplan.dask_engine`; ``scheduler`` address, else a LocalCluster of
+        ``workers``); the candidates are the same.
 
     Returns
     -------
     (list of Candidate, list of (star_id, reason) skipped, dict of search info)
     """
     table = as_star_source(table)
+    if engine not in ("local", "dask"):
+        raise InputError(f"--engine {engine!r}: give local or dask")
     if not np.isfinite(margin_km) or margin_km < 0:
         raise InputError(f"--margin {margin_km} km must be >= 0")
     eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
@@ -735,35 +787,31 @@ def search_candidates(body, table, window, *, kernels=None,
         lo, hi = t0, t1  # a window at the end of the kernel: no padding
     threshold = body.outer_ring_km + EARTH_RADIUS_KM + margin_km
     path = planet_path(eph, body, lo, hi, node_step_s, threshold, corrections)
-    tree = cKDTree(path.unit)
-    # stage 1 over the catalog in chunks: only the stars within reach are kept
-    n_searched, parts, row_parts, runs = 0, [], [], []
-    n_hits = 0
-    for chunk in iter_chunks(table, chunk_rows):
-        reach = prefilter(path, chunk, tree)
-        if reach.rows.size:
-            parts.append(chunk.subset(reach.rows))
-            row_parts.append(reach.rows + n_searched)
-            runs.append((reach.run_star + n_hits, reach.run_first, reach.run_last))
-            n_hits += reach.rows.size
-        n_searched += len(chunk)
-    pre = None
-    if parts:
-        hits = concat_tables(parts)
-        rows = np.concatenate(row_parts)
-        reach = Reach(np.arange(n_hits), *(np.concatenate(x) for x in zip(*runs)))
-        pre = screen(path, hits, reach, EARTH_RADIUS_KM + margin_km)
-        stars = hits.subset(pre.rows)
-        rows = rows[pre.rows]
-        check_stars(stars)
-    candidates, skipped = [], []
-    if pre is not None and pre.run_star.size:
-        candidates, skipped = refine_all(eph, body, path, stars, rows, pre, (t0, t1), corrections,
-                                         margin_km, progress)
+    partitions, pieces = None, None
+    if hasattr(table, "select"):  # a partitioned catalog: read only what the path can reach
+        pieces = table.select(path.unit, search_radius_rad(path),
+                              years_from_epoch(table.ref_epoch_yr, lo, hi))
+        partitions = dict(table.info)
+    if engine == "dask":
+        from .dask_engine import search_on_dask
+
+        source = table if pieces is None else (pieces, table.column_map, table.allow_no_motion)
+        if pieces is None and not hasattr(table, "subset"):
+            from .catalogs import StarTable  # an iterable of chunks: gather it first
+            source = concat_tables(list(table)) or StarTable.from_stars([])
+        candidates, skipped, counts = search_on_dask(
+            body, path, source, (t0, t1), corrections, margin_km, kernels, scheduler, workers,
+            dask_processes, chunk_rows)
+    else:
+        if pieces is not None:
+            table = (chunk for pc in pieces for chunk in table.read(pc, chunk_rows))
+        candidates, skipped, counts = search_path(eph, body, path, table, (t0, t1), corrections,
+                                                  margin_km, progress, chunk_rows)
+    n_searched, n_hits, n_screened = counts
     candidates.sort(key=lambda c: (c.closest_approach_s, c.row))
     info = {
         "stars_searched": n_searched, "prefiltered": n_hits,
-        "screened": 0 if pre is None else int(pre.rows.size), "candidates": len(candidates),
+        "screened": n_screened, "candidates": len(candidates),
         "threshold": (f"sky-plane distance of the geocentric ray from the outer-ring ellipse "
                       f"(R_out = {body.outer_ring_km:g} km) <= R_E {EARTH_RADIUS_KM} km + margin "
                       f"{margin_km:g} km"),
@@ -773,6 +821,8 @@ def search_candidates(body, table, window, *, kernels=None,
                       " arcsec) plus half a node step and each star's motion allowance"),
         "search_nodes_utc": [_utc(lo), _utc(hi)],
     }
+    if partitions is not None:
+        info["partitions"] = partitions
     return candidates, skipped, info
 
 
