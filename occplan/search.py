@@ -804,7 +804,8 @@ def search_candidates(body, table, window, *, kernels=None,
             dask_processes, chunk_rows)
     else:
         if pieces is not None:
-            table = (chunk for pc in pieces for chunk in table.read(pc, chunk_rows))
+            catalog = table
+            table = (chunk for pc in pieces for chunk in catalog.read(pc, chunk_rows))
         candidates, skipped, counts = search_path(eph, body, path, table, (t0, t1), corrections,
                                                   margin_km, progress, chunk_rows)
     n_searched, n_hits, n_screened = counts
