@@ -830,7 +830,7 @@ def search_candidates(body, table, window, *, kernels=None,
 def find_events(body, table, window, observers, *, kernels=None,
                 corrections: Corrections = Corrections(), margin_km: float = DEFAULT_MARGIN_KM,
                 node_step_s: float = DEFAULT_NODE_STEP_S, include_misses: bool = False,
-                progress=None) -> SearchResult:
+                progress=None, engine: str = "local", scheduler: str | None = None) -> SearchResult:
     """Candidate events of a catalog over a window for each observer (all three stages).
 
     ``observers`` is a list of :class:`occplan.ephemeris.Observer` or of
@@ -845,7 +845,7 @@ def find_events(body, table, window, observers, *, kernels=None,
     eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
     candidates, skipped, info = search_candidates(
         body, table, window, kernels=kernels, corrections=corrections, margin_km=margin_km,
-        node_step_s=node_step_s, progress=progress)
+        node_step_s=node_step_s, progress=progress, engine=engine, scheduler=scheduler)
     pairs = [(o.observer(), o) if isinstance(o, Site) else (o, None) for o in observers]
     events = []
     misses = 0

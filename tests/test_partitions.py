@@ -108,3 +108,22 @@ def test_dask_engine_star_for_star(catalog):
                                            engine="dask", workers=2, dask_processes=False)
     assert not skipped
     _same(got, ref)
+
+
+def test_cli_find_on_a_parquet_folder(catalog):
+    import json
+
+    from typer.testing import CliRunner
+
+    from occplan.cli.main import build_app
+
+    root, body, window, ref = catalog
+    args = ["find", "--catalog", str(root / "folders"), "--start", START,
+            "--end", "2027-06-13T00:00:00Z", "--geocentre", "--no-zones", "--format", "json"]
+    res = CliRunner().invoke(build_app(), args)
+    assert res.exit_code == 0, res.output
+    out = json.loads(res.stdout)
+    assert out["meta"]["search"]["partitions"]["partitions_read"] >= 1
+    assert {r["star_id"] for r in out["rows"]} <= {c.star_id for c in ref}
+    bad = CliRunner().invoke(build_app(), args + ["--engine", "spark"])
+    assert bad.exit_code == 2 and "--engine" in bad.output
