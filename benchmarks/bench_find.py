@@ -1,130 +1,152 @@
-"""Benchmark: search a synthetic 1,000,000-star catalog over one year for one planet.
+"""Benchmark: the catalog search on generated catalogs (ratios printed, nothing asserted).
 
-Run: python benchmarks/bench_find.py [--stars 1000000] [--brute 10000] [--seed 1]
-Builds a seeded synthetic catalog (invented stars: a band of +-1.5 deg around Saturn's 2027
-geocentric path, so the density near the path is like a deep survey's near the ecliptic,
-about 20,000 stars per square degree), writes it as CSV, and times
-  1. reading the CSV (occplan.catalogs.read_catalog_table),
-  2. the search (k-d tree prefilter + exact geocentric closest approaches),
-on one core (target: under 60 s in all).  In the same run a brute-force scan of a subset
-(no prefilter: each star's exact geocentric direction through skyfield every hour of the
-year, the same threshold, the same refinement) checks that the fast search finds the same
-candidates in that subset, and the per-star speed ratio is printed.
+Run: python benchmarks/bench_find.py [--sizes 1e5,1e6] [--big] [--seed 1] [--skip-dask]
+
+One thread (set below, before numpy loads).  Reports, for Saturn over 2027:
+  1. stars generated on the fly (invented: a band of +-1.5 deg around the path, about
+     20,000 stars per square degree at 1e6) and streamed in chunks: time per size, stars
+     per second, peak memory (RSS high-water mark); ``--big`` adds 1e7;
+  2. the same 1e6 stars over 5 years against 1 year (ratio);
+  3. partition pruning: the fraction of HEALPix pixels the path can reach at levels 5-8,
+     and a generated partitioned catalog on disk (benchmarks/make_partitioned_catalog.py)
+     searched with pruning;
+  4. the Dask engine on 2 local worker processes against the in-process engine on that
+     catalog (same candidates, time ratio).
+Targets (DESIGN.md section 10): 1e6 under 10 s, 1e7 under 100 s and 2 GB, 5 years at most
+2x one year, pruning under 2 % of partitions.
 """
 
-from __future__ import annotations
-
-import argparse
 import os
-import tempfile
-import time
-import warnings
 
-import numpy as np
+for _v in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "NUMEXPR_NUM_THREADS"):
+    os.environ[_v] = "1"
 
-from occplan.bodies import get_body
-from occplan.catalogs import read_catalog_table
-from occplan.ephemeris import Observer, get_ephemeris, parse_utc, tdb_s_of, time_from_tdb_s
-from occplan.geometry import Corrections
-from occplan.search import (DEFAULT_MARGIN_KM, EARTH_RADIUS_KM, _runs, planet_path,
-                            refine_candidate, search_candidates)
+import argparse  # noqa: E402
+import resource  # noqa: E402
+import sys  # noqa: E402
+import tempfile  # noqa: E402
+import time  # noqa: E402
+import warnings  # noqa: E402
+from pathlib import Path  # noqa: E402
 
-START, END = "2027-01-01T00:00:00Z", "2028-01-01T00:00:00Z"
+import numpy as np  # noqa: E402
+
+from occplan.bodies import get_body  # noqa: E402
+from occplan.catalogs import StarTable  # noqa: E402
+from occplan.ephemeris import get_ephemeris, parse_utc, tdb_s_of  # noqa: E402
+from occplan.search import planet_path, search_candidates, search_radius_rad  # noqa: E402
+
+START = "2027-01-01T00:00:00Z"
+YEAR_S = 365.25 * 86400.0
 
 
-def synthetic_catalog(path, n, seed, body, eph, t0, t1):
+def generated(n, track, seed, size=250_000):
+    """StarTable chunks of invented stars near the path (never all in memory)."""
     rng = np.random.default_rng(seed)
-    track = planet_path(eph, body, t0, t1, 86400.0, body.outer_ring_km)
-    k = rng.integers(0, track.tdb_s.size, n)
-    u = track.unit[k]
-    east = np.cross([0.0, 0.0, 1.0], u)
-    east /= np.linalg.norm(east, axis=1)[:, None]
-    north = np.cross(u, east)
-    off = np.radians(rng.uniform(-1.5, 1.5, (n, 2)))
-    v = u + off[:, :1] * east + off[:, 1:] * north
-    v /= np.linalg.norm(v, axis=1)[:, None]
-    ra = np.degrees(np.arctan2(v[:, 1], v[:, 0])) % 360.0
-    dec = np.degrees(np.arcsin(v[:, 2]))
-    pmra, pmdec = rng.normal(0, 6, n), rng.normal(0, 6, n)
-    plx = rng.uniform(0.0, 1.5, n)
-    vmag = rng.uniform(9, 17, n)
-    with open(path, "w") as fh:
-        fh.write("source_id,ra,dec,pmra,pmdec,parallax,radial_velocity,ref_epoch,vmag,kmag\n")
-        ids = np.arange(1, n + 1) + 10**12
-        block = np.column_stack([ids, ra, dec, pmra, pmdec, plx, vmag])
-        lines = (f"{int(r[0])},{r[1]:.9f},{r[2]:.9f},{r[3]:.4f},{r[4]:.4f},{r[5]:.4f},,2016.0,"
-                 f"{r[6]:.3f},{r[6] - 2.5:.3f}\n" for r in block)
-        fh.writelines(lines)
+    for lo in range(0, n, size):
+        m = min(size, n - lo)
+        k = rng.integers(0, track.tdb_s.size, m)
+        u = track.unit[k]
+        east = np.cross([0.0, 0.0, 1.0], u)
+        east /= np.linalg.norm(east, axis=1)[:, None]
+        north = np.cross(u, east)
+        off = np.radians(rng.uniform(-1.5, 1.5, (m, 2)))
+        v = u + off[:, :1] * east + off[:, 1:] * north
+        v /= np.linalg.norm(v, axis=1)[:, None]
+        nan = np.full(m, np.nan)
+        yield StarTable(
+            source_id=np.arange(lo, lo + m).astype(str).astype(object),
+            ra_deg=np.degrees(np.arctan2(v[:, 1], v[:, 0])) % 360.0,
+            dec_deg=np.degrees(np.arcsin(v[:, 2])), pm_ra_mas_yr=rng.normal(0, 6, m),
+            pm_dec_mas_yr=rng.normal(0, 6, m), parallax_mas=rng.uniform(0, 1.5, m),
+            rv_km_s=np.zeros(m), epoch_jd_tt=np.full(m, 2457389.0), vmag=nan, kmag=nan,
+            gmag=nan)
 
 
-def brute_force(body, table, window, margin_km, eph):
-    """No prefilter: every star's exact geocentric direction every hour, then the same refinement."""
-    t0, t1 = window
-    pad = 2 * 86400.0
-    nodes = np.arange(t0 - pad, t1 + pad + 1.0, 3600.0)
-    path = planet_path(eph, body, nodes[0], nodes[-1], 3600.0, body.outer_ring_km
-                       + EARTH_RADIUS_KM + margin_km)
-    when = time_from_tdb_s(path.tdb_s)
-    geo = Observer.geocentre()
-    theta = path.theta_nodes_rad
-    half = 0.5 * np.maximum(np.r_[path.step_rad, 0.0], np.r_[0.0, path.step_rad])
-    corr = Corrections()
-    found = []
-    for i in range(len(table)):
-        star = table.star(i)
-        s = eph.star_direction(star, geo, when).T  # exact, parallax from the Earth
-        near = np.linalg.norm(path.unit - s, axis=1) <= theta + half + 1e-9
-        for first, last in _runs(near):
-            a = path.tdb_s[max(first - 1, 0)]
-            b = path.tdb_s[min(last + 1, path.tdb_s.size - 1)]
-            found += refine_candidate(eph, body, star, i, a, b, (t0, t1), corr, margin_km)
-    return found
+def peak_mb():
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
+
+
+def timed(body, source, window, **kw):
+    tic = time.perf_counter()
+    cands, skipped, info = search_candidates(body, source, window, progress=False, **kw)
+    return time.perf_counter() - tic, cands, info
 
 
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--stars", type=int, default=1_000_000)
-    ap.add_argument("--brute", type=int, default=10_000)
+    ap.add_argument("--sizes", default="1e5,1e6")
+    ap.add_argument("--big", action="store_true", help="also 1e7 stars")
+    ap.add_argument("--part-stars", type=float, default=1e6)
+    ap.add_argument("--part-level", type=int, default=5)
     ap.add_argument("--seed", type=int, default=1)
-    args = ap.parse_args()
+    ap.add_argument("--skip-dask", action="store_true")
+    a = ap.parse_args()
     warnings.simplefilter("ignore")
-    os.environ.setdefault("OMP_NUM_THREADS", "1")
     eph, body = get_ephemeris(), get_body("saturn")
-    t0, t1 = tdb_s_of(parse_utc(START)), tdb_s_of(parse_utc(END))
+    t0 = tdb_s_of(parse_utc(START))
+    year = (t0, t0 + YEAR_S)
+    track = planet_path(eph, body, t0, t0 + YEAR_S, 86400.0, body.outer_ring_km)
+    sizes = [int(float(s)) for s in a.sizes.split(",")] + ([10_000_000] if a.big else [])
+    times = {}
+    for n in sizes:
+        dt, cands, info = timed(body, generated(n, track, a.seed), year)
+        times[n] = dt
+        print(f"{n:>10,} stars, 1 year: {dt:6.1f} s ({n / dt:,.0f} stars/s; {info['prefiltered']} "
+              f"prefiltered, {info['screened']} screened, {len(cands)} candidates); "
+              f"peak RSS so far {peak_mb():,.0f} MB", flush=True)
+    n = 1_000_000 if 1_000_000 in times else sizes[0]
+    dt5, cands5, _ = timed(body, generated(n, track, a.seed), (t0, t0 + 5 * YEAR_S))
+    print(f"{n:,} stars, 5 years: {dt5:.1f} s = {dt5 / times[n]:.2f} x one year "
+          f"({len(cands5)} candidates)", flush=True)
+
+    # partition pruning: fraction of pixels the year's path can reach
+    from occplan.partitions import DEFAULT_EPOCH_YR, ParquetCatalog, reachable_pixels
+    from occplan.search import years_from_epoch
+
+    path = planet_path(eph, body, t0 - 2 * 86400.0, t0 + YEAR_S + 2 * 86400.0, 3600.0,
+                       body.outer_ring_km + 7378.137)
+    from occplan.partitions import MAX_PARALLAX_MAS, MAX_PROPER_MOTION_MAS_YR
+    yrs = years_from_epoch(DEFAULT_EPOCH_YR, path.tdb_s[0], path.tdb_s[-1])
+    radius = search_radius_rad(path) + np.radians(
+        (MAX_PROPER_MOTION_MAS_YR * yrs + MAX_PARALLAX_MAS) / 3.6e6)
+    for level in (5, 6, 7, 8):
+        pix = reachable_pixels(path.unit, radius, level)
+        print(f"HEALPix level {level} ({12 * 4 ** level:,} pixels): one year of Saturn reaches "
+              f"{pix.size} = {100 * pix.size / (12 * 4 ** level):.3f} %", flush=True)
 
     with tempfile.TemporaryDirectory() as tmp:
-        path = os.path.join(tmp, "synthetic.csv")
-        tic = time.perf_counter()
-        synthetic_catalog(path, args.stars, args.seed, body, eph, t0, t1)
-        print(f"synthetic catalog: {args.stars} stars written in {time.perf_counter() - tic:.1f} s "
-              "(not part of the timing)")
-        tic = time.perf_counter()
-        table = read_catalog_table(path)
-        t_read = time.perf_counter() - tic
-    tic = time.perf_counter()
-    cands, skipped, info = search_candidates(body, table, (t0, t1), progress=False)
-    t_search = time.perf_counter() - tic
-    total = t_read + t_search
-    print(f"read CSV: {t_read:.1f} s; search: {t_search:.1f} s ({info['prefiltered']} prefiltered, "
-          f"{info['screened']} screened, "
-          f"{len(cands)} candidates, {len(skipped)} skipped); total {total:.1f} s "
-          f"(target < 60 s): {'PASS' if total < 60 else 'FAIL'}")
+        sys.path.insert(0, str(Path(__file__).parent))
+        from make_partitioned_catalog import synthetic_stars, write_partitioned
 
-    n_b = min(args.brute, len(table))
-    sub = table.subset(np.arange(n_b))
-    tic = time.perf_counter()
-    ref = brute_force(body, sub, (t0, t1), DEFAULT_MARGIN_KM, eph)
-    t_brute = time.perf_counter() - tic
-    fast_sub = sorted((c.star_id, round(c.closest_approach_s, 1)) for c in cands if c.row < n_b)
-    brute_sub = sorted((c.star_id, round(c.closest_approach_s, 1)) for c in ref)
-    same = [a[0] for a in fast_sub] == [b[0] for b in brute_sub] and all(
-        abs(a[1] - b[1]) < 1.0 for a, b in zip(fast_sub, brute_sub))
-    per_fast = t_search / len(table)
-    per_brute = t_brute / n_b
-    print(f"brute force on the first {n_b} stars: {t_brute:.1f} s, {len(ref)} candidates; "
-          f"fast search found the same ones: {same}")
-    print(f"per star: search {per_fast * 1e6:.2f} us, brute force {per_brute * 1e3:.2f} ms; "
-          f"speed ratio {per_brute / per_fast:.0f}x")
+        tic = time.perf_counter()
+        cols = synthetic_stars(int(a.part_stars), 3000, "saturn", START, 365.0, a.seed)
+        files = write_partitioned(tmp, cols, a.part_level)
+        print(f"partitioned catalog: {cols['ra'].size:,} stars in {files:,} files "
+              f"(level {a.part_level}) written in {time.perf_counter() - tic:.0f} s", flush=True)
+        del cols
+        dt_p, cands_p, info = timed(body, ParquetCatalog(tmp), year)
+        part = info["partitions"]
+        print(f"pruned search: {dt_p:.1f} s, read {part['partitions_read']} of "
+              f"{part['partitions']} partitions ({100 * part['partitions_read'] / part['partitions']:.2f} %), "
+              f"{part['rows_read']:,} of {part['rows']:,} rows; {len(cands_p)} candidates",
+              flush=True)
+        if not a.skip_dask:
+            from occplan.dask_engine import client_for
+
+            client, cluster = client_for(None, 2, True)
+            try:
+                search_candidates(body, ParquetCatalog(tmp), (t0, t0 + 86400.0), engine="dask",
+                                  scheduler=client.scheduler.address)  # workers warm up
+                dt_d, cands_d, _ = timed(body, ParquetCatalog(tmp), year, engine="dask",
+                                         scheduler=client.scheduler.address)
+            finally:
+                client.close()
+                cluster.close()
+            same = sorted(c.star_id for c in cands_d) == sorted(c.star_id for c in cands_p)
+            print(f"Dask engine, 2 local workers: {dt_d:.1f} s vs in-process {dt_p:.1f} s "
+                  f"(in-process / dask = {dt_p / dt_d:.2f}); same candidates: {same}", flush=True)
+    print(f"peak RSS {peak_mb():,.0f} MB")
 
 
 if __name__ == "__main__":

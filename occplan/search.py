@@ -117,7 +117,8 @@ def distance_to_ellipse(x, y, a: float, b):
     0 inside.  Outside, the closest point is (a^2 x/(t + a^2), b^2 y/(t + b^2)) with t > 0 the
     root of F(t) = (a x/(t + a^2))^2 + (b y/(t + b^2))^2 - 1 (Lagrange condition of the
     projection; e.g. Eberly, "Distance from a point to an ellipse", 2011).  F is convex and
-    decreasing for t > 0, so Newton's method from t = 0 climbs to the root monotonically.
+    decreasing for t > 0, so Newton's method from below the root (t = 0, or the lower bound
+    sqrt(a^2 x^2 + b^2 y^2) - max(a, b)^2) climbs to it monotonically.
     ``b`` may be an array (the ring ellipse's short axis changes with B*).
     """
     x = np.abs(np.asarray(x, dtype=float))
@@ -126,14 +127,25 @@ def distance_to_ellipse(x, y, a: float, b):
     a2, b2 = a * a, b * b
     inside = (x / a) ** 2 + (y / b) ** 2 <= 1.0
     t = np.zeros_like(x)
+    # Newton on the points still moving only (the others have converged)
+    shape = x.shape
+    x, y, b2, inside, t = (np.ravel(v) for v in (x, y, b2, inside, t))
+    b = np.ravel(np.ascontiguousarray(b))
+    act = np.nonzero(~inside)[0]
+    # start at a lower bound of the root: F(t) >= (a^2 x^2 + b^2 y^2)/(t + max(a, b)^2)^2 - 1
+    t[act] = np.maximum(np.sqrt((a * x[act]) ** 2 + (b[act] * y[act]) ** 2)
+                        - np.maximum(a2, b2[act]), 0.0)
     for _ in range(60):
-        ex, ey = a * x / (t + a2), b * y / (t + b2)
-        f = ex * ex + ey * ey - 1.0
-        df = -2.0 * (ex * ex / (t + a2) + ey * ey / (t + b2))
-        step = np.where(inside | (df == 0), 0.0, -f / np.where(df == 0, -1.0, df))
-        t = t + np.maximum(step, 0.0)
-        if np.all(np.abs(step) <= 1e-12 * (t + a2)):
+        if act.size == 0:
             break
+        xa, ya, ba, b2a, ta = x[act], y[act], b[act], b2[act], t[act]
+        ex, ey = a * xa / (ta + a2), ba * ya / (ta + b2a)
+        f = ex * ex + ey * ey - 1.0
+        df = -2.0 * (ex * ex / (ta + a2) + ey * ey / (ta + b2a))
+        step = np.where(df == 0, 0.0, -f / np.where(df == 0, -1.0, df))
+        t[act] = ta + np.maximum(step, 0.0)
+        act = act[np.abs(step) > 1e-12 * (ta + a2)]
+    x, y, b2, inside, t = (v.reshape(shape) for v in (x, y, b2, inside, t))
     xc, yc = a2 * x / (t + a2), b2 * y / (t + b2)
     return np.where(inside, 0.0, np.hypot(x - xc, y - yc))
 
@@ -212,44 +224,73 @@ def planet_path(eph, body, t0_s: float, t1_s: float, step_s: float, threshold_km
                       body.outer_ring_km)
 
 
-def prefilter(path: PlanetPath, table, chunk: int = 200_000):
+def _pair_runs(star, node, join: int = 1):
+    """Runs of (star, node) pairs sorted by star then node: (star, first node, last node) of
+    each run, joining runs of one star separated by <= ``join`` missing nodes (as
+    :func:`_runs` does for one star)."""
+    star, node = np.asarray(star, dtype=np.int64), np.asarray(node, dtype=np.int64)
+    if star.size == 0:
+        return star, node, node
+    brk = np.r_[True, (star[1:] != star[:-1]) | (node[1:] - node[:-1] > join + 1)]
+    starts = np.nonzero(brk)[0]
+    ends = np.r_[starts[1:] - 1, star.size - 1]
+    return star[starts], node[starts], node[ends]
+
+
+@dataclass
+class Reach:
+    """Stars within reach of the path and, for each run of nodes, its star and node span."""
+
+    rows: np.ndarray  # row of each star reached, in the catalog as streamed
+    run_star: np.ndarray  # index into rows (and into the stars' table) of each run
+    run_first: np.ndarray  # first path node of each run
+    run_last: np.ndarray
+
+    def runs_of(self, j: int) -> list[tuple[int, int]]:
+        sel = self.run_star == j
+        return list(zip(self.run_first[sel].tolist(), self.run_last[sel].tolist()))
+
+
+def prefilter(path: PlanetPath, table, tree=None):
     """Catalog rows that come within reach of the path, and for each the node runs.
+
+    Vectorised over stars and nodes: a nearest-node query (radius per group of stars with
+    similar motion allowances) finds the stars, a ball query on the same k-d tree their
+    nodes, and each node is kept when the star is within theta_k + h_k + m_star of it.
 
     Returns
     -------
-    list of (row index, list of (first node, last node))
+    :class:`Reach` (``rows`` index ``table``)
     """
     t_ref = 0.5 * (path.tdb_s[0] + path.tdb_s[-1])
     half = 0.5 * (path.tdb_s[-1] - path.tdb_s[0])
     base = path.theta_rad + 0.5 * float(path.step_rad.max(initial=0.0)) + 1e-9
-    tree = cKDTree(path.unit)
-    hits = []
-    for lo in range(0, len(table), chunk):
-        sub = table.subset(np.arange(lo, min(lo + chunk, len(table))))
-        u = star_unit_vectors(sub, t_ref)
-        margin = star_margins_rad(sub, t_ref, half)
-        # group stars by their margin (powers of two) so that one query radius serves a group
-        level = np.ceil(np.log2(np.maximum(margin, 1e-9) / 1e-9)).astype(int)
-        for lv in np.unique(level):
-            sel = np.nonzero(level == lv)[0]
-            radius = base + 1e-9 * 2.0 ** lv
-            d, _ = tree.query(u[sel], distance_upper_bound=radius)
-            hits.extend((lo + sel[np.isfinite(d)]).tolist())
-    out = []
-    if not hits:
-        return out
-    hits = np.array(sorted(hits))
-    cand = table.subset(hits)
-    u = star_unit_vectors(cand, t_ref)
-    margin = star_margins_rad(cand, t_ref, half)
-    theta_nodes = path.theta_nodes_rad
+    tree = cKDTree(path.unit) if tree is None else tree
+    u = star_unit_vectors(table, t_ref)
+    margin = star_margins_rad(table, t_ref, half)
+    # group stars by their margin (powers of two) so that one query radius serves a group
+    level = np.ceil(np.log2(np.maximum(margin, 1e-9) / 1e-9)).astype(int)
+    hit = np.zeros(len(table), dtype=bool)
+    for lv in np.unique(level):
+        sel = np.nonzero(level == lv)[0]
+        d, _ = tree.query(u[sel], distance_upper_bound=base + 1e-9 * 2.0 ** lv)
+        hit[sel] = np.isfinite(d)
+    rows = np.nonzero(hit)[0]
+    empty = np.zeros(0, dtype=np.int64)
+    if rows.size == 0:
+        return Reach(rows, empty, empty, empty)
+    u, margin = u[rows], margin[rows]
+    found = tree.query_ball_point(u, base + margin + 1e-9, return_sorted=True)
+    counts = np.fromiter((len(x) for x in found), dtype=np.int64, count=rows.size)
+    if counts.sum() == 0:
+        return Reach(rows, empty, empty, empty)
+    node = np.concatenate([np.asarray(x, dtype=np.int64) for x in found if len(x)])
+    star = np.repeat(np.arange(rows.size), counts)
     h = np.r_[path.step_rad, 0.0]
     h = 0.5 * np.maximum(h, np.r_[0.0, path.step_rad])
-    for j, row in enumerate(hits):
-        chord = np.linalg.norm(path.unit - u[j], axis=1)
-        near = chord <= theta_nodes + h + margin[j] + 1e-9
-        out.append((int(row), _runs(near)))
-    return out
+    chord = np.linalg.norm(path.unit[node] - u[star], axis=1)
+    near = chord <= path.theta_nodes_rad[node] + h[node] + margin[star] + 1e-9
+    return Reach(rows, *_pair_runs(star[near], node[near]))
 
 
 SCREEN_SUBSTEPS = 64
@@ -257,7 +298,7 @@ PATH_ACCELERATION_KM_S2 = 1.0e-5  # Earth's orbital acceleration 5.9e-6 km/s^2 p
 DEFLECTION_ALLOWANCE_KM = 100.0  # planet deflection (about 23 km at Saturn) and B, P drift
 
 
-def screen(path: PlanetPath, table, hits, limit_km: float, chunk: int = 20000):
+def screen(path: PlanetPath, table, reach: Reach, limit_km: float, chunk: int = 20000):
     """Stage 1.5: keep the node runs whose segments can reach the outer-ring ellipse.
 
     Each node segment is cut into ``SCREEN_SUBSTEPS`` pieces; at each point the linearly
@@ -266,24 +307,22 @@ def screen(path: PlanetPath, table, hits, limit_km: float, chunk: int = 20000):
     A segment passes when min distance - half a piece - allowances <= ``limit_km``; the
     allowances are the star's motion margin, the light-time allowance, the sagitta of the
     path over a segment (``PATH_ACCELERATION_KM_S2`` T^2 / 8) and ``DEFLECTION_ALLOWANCE_KM``.
-    Returns ``hits`` with the runs reduced to the passing segments.
+    ``table`` holds the stars of ``reach`` (row j is ``reach.rows[j]``).  Returns a
+    :class:`Reach` with the runs reduced to the passing segments (and its stars only).
     """
-    if not hits:
-        return []
+    empty = np.zeros(0, dtype=np.int64)
+    if reach.run_star.size == 0:
+        return Reach(empty, empty, empty, empty)
     t_ref = 0.5 * (path.tdb_s[0] + path.tdb_s[-1])
     half = 0.5 * (path.tdb_s[-1] - path.tdb_s[0])
-    rows = np.array([h[0] for h in hits])
-    sub = table.subset(rows)
-    u_star = star_unit_vectors(sub, t_ref)
-    margin_rad = star_margins_rad(sub, t_ref, half)
-    pairs_j, pairs_k = [], []
+    u_star = star_unit_vectors(table, t_ref)
+    margin_rad = star_margins_rad(table, t_ref, half)
     last_node = path.tdb_s.size - 2
-    for j, (_, runs) in enumerate(hits):
-        for first, last in runs:
-            ks = np.arange(max(first - 1, 0), min(last, last_node) + 1)
-            pairs_j.append(np.full(ks.size, j))
-            pairs_k.append(ks)
-    pj, pk = np.concatenate(pairs_j), np.concatenate(pairs_k)
+    k_lo = np.maximum(reach.run_first - 1, 0)
+    k_hi = np.minimum(reach.run_last, last_node)
+    cnt = np.maximum(k_hi - k_lo + 1, 0)
+    pj = np.repeat(reach.run_star, cnt)
+    pk = np.repeat(k_lo, cnt) + (np.arange(cnt.sum()) - np.repeat(np.cumsum(cnt) - cnt, cnt))
     tau = (np.arange(SCREEN_SUBSTEPS + 1) / SCREEN_SUBSTEPS)[None, :, None]
     dt_node = np.diff(path.tdb_s)
     z = np.array([0.0, 0.0, 1.0])
@@ -309,15 +348,12 @@ def screen(path: PlanetPath, table, hits, limit_km: float, chunk: int = 20000):
                      + np.maximum(path.light_time_allowance_km[k], path.light_time_allowance_km[k + 1])
                      + PATH_ACCELERATION_KM_S2 * dt_node[k] ** 2 / 8.0 + DEFLECTION_ALLOWANCE_KM)
         ok[lo:lo + chunk] = dmin - allowance <= limit_km
-    out = []
-    for j, (row, _) in enumerate(hits):
-        sel = pk[(pj == j) & ok]
-        if sel.size:
-            mask = np.zeros(path.tdb_s.size, dtype=bool)
-            mask[sel] = True
-            mask[sel + 1] = True
-            out.append((row, _runs(mask)))
-    return out
+    j = np.r_[pj[ok], pj[ok]]
+    k = np.r_[pk[ok], pk[ok] + 1]
+    key = np.unique(j * np.int64(path.tdb_s.size) + k)
+    run_star, first, last = _pair_runs(key // path.tdb_s.size, key % path.tdb_s.size)
+    stars, run_star = np.unique(run_star, return_inverse=True)
+    return Reach(stars, run_star.astype(np.int64), first, last)
 
 
 # --------------------------------------------------------------------------- refinement
@@ -556,6 +592,152 @@ def _progress(total: int, label: str, enabled):
     return prog
 
 
+DEFAULT_CHUNK_ROWS = 250_000  # catalog rows prefiltered at a time (about 100 MB of work arrays)
+REFINE_PAIRS = 400_000  # (star, spline node) pairs refined together (about 150 MB)
+
+_FIELDS = ("source_id", "ra_deg", "dec_deg", "pm_ra_mas_yr", "pm_dec_mas_yr", "parallax_mas",
+           "rv_km_s", "epoch_jd_tt", "vmag", "kmag", "gmag")
+
+
+def as_star_source(table):
+    """A StarTable as is, a list of StarSpec as a StarTable, anything else as an iterable of
+    StarTable chunks."""
+    from .catalogs import StarTable
+    from .ephemeris import StarSpec
+
+    if isinstance(table, StarTable):
+        return table
+    if isinstance(table, (list, tuple)) and all(isinstance(s, StarSpec) for s in table):
+        return StarTable.from_stars(list(table))
+    return table
+
+
+def iter_chunks(source, chunk_rows: int):
+    """StarTable chunks of at most ``chunk_rows`` rows from a StarTable (or an iterable of
+    chunks, passed through)."""
+    from .catalogs import StarTable
+
+    if isinstance(source, StarTable):
+        for lo in range(0, len(source), chunk_rows):
+            yield source if len(source) <= chunk_rows else source.subset(
+                np.arange(lo, min(lo + chunk_rows, len(source))))
+        return
+    yield from source
+
+
+def concat_tables(parts):
+    """One StarTable from several (None for none)."""
+    from .catalogs import StarTable
+
+    if not parts:
+        return None
+    if len(parts) == 1:
+        return parts[0]
+    kw = {f: np.concatenate([getattr(p, f) for p in parts]) for f in _FIELDS}
+    return StarTable(**kw, report=parts[0].report)
+
+
+def check_stars(stars) -> None:
+    """Refuse (InputError, naming the star) a star whose motion is not finite or not
+    physical, as the per-star track does (:func:`occplan.geometry.check_star`)."""
+    from .geometry import (MAX_PARALLAX_MAS, MAX_PROPER_MOTION_MAS_YR, MAX_RADIAL_VELOCITY_KM_S,
+                           check_star)
+
+    bad = np.zeros(len(stars), dtype=bool)
+    for name, bound in (("pm_ra_mas_yr", MAX_PROPER_MOTION_MAS_YR),
+                        ("pm_dec_mas_yr", MAX_PROPER_MOTION_MAS_YR),
+                        ("parallax_mas", MAX_PARALLAX_MAS), ("rv_km_s", MAX_RADIAL_VELOCITY_KM_S)):
+        v = np.nan_to_num(np.asarray(getattr(stars, name), dtype=float), nan=0.0,
+                          posinf=np.inf, neginf=-np.inf)
+        bad |= ~np.isfinite(v) | (np.abs(v) > bound)
+    if np.any(bad):
+        check_star(stars.star(int(np.nonzero(bad)[0][0])))
+
+
+def refine_all(eph, body, path, stars, rows, reach, window, corrections, margin_km, progress=None):
+    """Stage 2 for every run of ``reach`` (stars of ``stars``, catalog rows ``rows``), in
+    blocks of about :data:`REFINE_PAIRS` spline nodes ordered by time
+    (:func:`occplan.refine.refine_runs`).  Returns (candidates, skipped)."""
+    from .refine import path_ephemeris, refine_runs
+
+    n_path = path.tdb_s.size
+    a = path.tdb_s[np.maximum(reach.run_first - 1, 0)]
+    b = path.tdb_s[np.minimum(reach.run_last + 1, n_path - 1)]
+    step = float(path.tdb_s[1] - path.tdb_s[0])
+    per_step = max(int(math.ceil(step / 120.0 - 1e-9)), 1)
+    h = step / per_step
+    order = np.argsort(a, kind="stable")
+    nodes = np.rint((b - a) / h)[order] + 5
+    block = np.floor(np.cumsum(nodes) / REFINE_PAIRS).astype(int)
+    cuts = np.r_[0, np.nonzero(np.diff(block))[0] + 1, order.size]
+    ephem = path_ephemeris(eph, body, a - 2 * h, b + 2 * h, corrections, anchor_s=path.tdb_s[0])
+    candidates, skipped = [], []
+    bar = _progress(len(cuts) - 1, "refining candidates", progress)
+    try:
+        for lo, hi in zip(cuts[:-1], cuts[1:]):
+            sel = order[lo:hi]
+            got, skip = refine_runs(eph, body, stars, reach.run_star[sel], a[sel], b[sel], h,
+                                    window, corrections, margin_km, EARTH_RADIUS_KM + margin_km,
+                                    origin_s=path.tdb_s[0] - 2 * h, ephem=ephem)
+            skipped += [(str(stars.source_id[j]), reason) for j, reason in skip]
+            for i, j in enumerate(got["star"].tolist()):
+                candidates.append(Candidate(
+                    row=int(rows[j]), star=stars.star(j),
+                    **{k: (bool(v[i]) if k == "at_window_edge" else float(v[i]))
+                       for k, v in got.items() if k != "star"}))
+            if bar is not None:
+                bar.advance(bar.task)
+    finally:
+        if bar is not None:
+            bar.stop()
+    return candidates, skipped
+
+
+def search_radius_rad(path: PlanetPath) -> float:
+    """Largest angle from the path at which a star (at mid-window) can be a candidate,
+    before its own motion allowance (the prefilter's circle plus half a node step)."""
+    return path.theta_rad + 0.5 * float(path.step_rad.max(initial=0.0)) + 1e-9
+
+
+def years_from_epoch(epoch_yr: float, t0_s: float, t1_s: float) -> float:
+    """Largest time (Julian years) between a catalog epoch and the window ends."""
+    ep = (epoch_yr - 2000.0) * JULIAN_YEAR_DAYS * 86400.0
+    return max(abs(t0_s - ep), abs(t1_s - ep)) / 86400.0 / JULIAN_YEAR_DAYS
+
+
+def search_path(eph, body, path: PlanetPath, chunks, window, corrections: Corrections,
+                margin_km: float, progress=None, chunk_rows: int = DEFAULT_CHUNK_ROWS):
+    """Stages 1 and 2 over StarTable chunks (a StarTable is cut into ``chunk_rows``).
+
+    Returns (candidates, skipped, (stars searched, prefiltered, screened)).
+    """
+    tree = cKDTree(path.unit)
+    n_searched, parts, row_parts, runs = 0, [], [], []
+    n_hits = 0
+    for chunk in iter_chunks(chunks, chunk_rows):
+        reach = prefilter(path, chunk, tree)
+        if reach.rows.size:
+            parts.append(chunk.subset(reach.rows))
+            row_parts.append(reach.rows + n_searched)
+            runs.append((reach.run_star + n_hits, reach.run_first, reach.run_last))
+            n_hits += reach.rows.size
+        n_searched += len(chunk)
+    if not parts:
+        return [], [], (n_searched, 0, 0)
+    hits = concat_tables(parts)
+    rows = np.concatenate(row_parts)
+    reach = Reach(np.arange(n_hits), *(np.concatenate(x) for x in zip(*runs)))
+    pre = screen(path, hits, reach, EARTH_RADIUS_KM + margin_km)
+    stars = hits.subset(pre.rows)
+    rows = rows[pre.rows]
+    check_stars(stars)
+    candidates, skipped = [], []
+    if pre.run_star.size:
+        candidates, skipped = refine_all(eph, body, path, stars, rows, pre, window, corrections,
+                                         margin_km, progress)
+    return candidates, skipped, (n_searched, n_hits, int(pre.rows.size))
+
+
 def check_window(body, window, kernels=None) -> tuple[float, float]:
     """The window in TDB seconds, after checking it against the kernels' coverage."""
     eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
@@ -568,26 +750,32 @@ def check_window(body, window, kernels=None) -> tuple[float, float]:
 def search_candidates(body, table, window, *, kernels=None,
                       corrections: Corrections = Corrections(), margin_km: float = DEFAULT_MARGIN_KM,
                       node_step_s: float = DEFAULT_NODE_STEP_S, pad_s: float = DEFAULT_PAD_S,
-                      progress=None):
+                      progress=None, chunk_rows: int = DEFAULT_CHUNK_ROWS, engine: str = "local",
+                      scheduler: str | None = None, workers: int = 2, dask_processes: bool = True):
     """Geocentric candidates of a star table over a window (stages 1 and 2).
 
     Parameters
     ----------
     body : occplan.bodies.Body
-    table : occplan.catalogs.StarTable (or a list of StarSpec)
+    table : occplan.catalogs.StarTable, a list of StarSpec, or an iterable of StarTable chunks
+        (streamed: only the stars within reach of the path are kept; ``Candidate.row`` counts
+        rows across the chunks).  A StarTable is read ``chunk_rows`` rows at a time.
     window : (start, end)
         UTC ISO strings or TDB seconds past J2000.
     margin_km : float
         Added to the Earth's radius in the threshold (module docstring).
+    engine : "local" or "dask"
+        "dask" runs stages 1 and 2 per catalog piece on a Dask cluster
+        (:mod:`occplan.dask_engine`; ``scheduler`` address, else a LocalCluster of
+        ``workers``); the candidates are the same.
 
     Returns
     -------
     (list of Candidate, list of (star_id, reason) skipped, dict of search info)
     """
-    from .catalogs import StarTable
-
-    if not isinstance(table, StarTable):
-        table = StarTable.from_stars(list(table))
+    table = as_star_source(table)
+    if engine not in ("local", "dask"):
+        raise InputError(f"--engine {engine!r}: give local or dask")
     if not np.isfinite(margin_km) or margin_km < 0:
         raise InputError(f"--margin {margin_km} km must be >= 0")
     eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
@@ -599,30 +787,32 @@ def search_candidates(body, table, window, *, kernels=None,
         lo, hi = t0, t1  # a window at the end of the kernel: no padding
     threshold = body.outer_ring_km + EARTH_RADIUS_KM + margin_km
     path = planet_path(eph, body, lo, hi, node_step_s, threshold, corrections)
-    pre_circle = prefilter(path, table)
-    pre = screen(path, table, pre_circle, EARTH_RADIUS_KM + margin_km)
-    candidates, skipped = [], []
-    bar = _progress(len(pre), "refining candidates", progress)
-    try:
-        for row, runs in pre:
-            star = table.star(row)
-            for first, last in runs:
-                a = path.tdb_s[max(first - 1, 0)]
-                b = path.tdb_s[min(last + 1, path.tdb_s.size - 1)]
-                try:
-                    candidates.extend(refine_candidate(eph, body, star, row, a, b, (t0, t1),
-                                                       corrections, margin_km))
-                except GeometryError as exc:
-                    skipped.append((star.name, str(exc)))
-            if bar is not None:
-                bar.advance(bar.task)
-    finally:
-        if bar is not None:
-            bar.stop()
-    candidates.sort(key=lambda c: c.closest_approach_s)
+    partitions, pieces = None, None
+    if hasattr(table, "select"):  # a partitioned catalog: read only what the path can reach
+        pieces = table.select(path.unit, search_radius_rad(path),
+                              years_from_epoch(table.ref_epoch_yr, lo, hi))
+        partitions = dict(table.info)
+    if engine == "dask":
+        from .dask_engine import search_on_dask
+
+        source = table if pieces is None else (pieces, table.column_map, table.allow_no_motion)
+        if pieces is None and not hasattr(table, "subset"):
+            from .catalogs import StarTable  # an iterable of chunks: gather it first
+            source = concat_tables(list(table)) or StarTable.from_stars([])
+        candidates, skipped, counts = search_on_dask(
+            body, path, source, (t0, t1), corrections, margin_km, kernels, scheduler, workers,
+            dask_processes, chunk_rows)
+    else:
+        if pieces is not None:
+            catalog = table
+            table = (chunk for pc in pieces for chunk in catalog.read(pc, chunk_rows))
+        candidates, skipped, counts = search_path(eph, body, path, table, (t0, t1), corrections,
+                                                  margin_km, progress, chunk_rows)
+    n_searched, n_hits, n_screened = counts
+    candidates.sort(key=lambda c: (c.closest_approach_s, c.row))
     info = {
-        "stars_searched": len(table), "prefiltered": len(pre_circle),
-        "screened": len(pre), "candidates": len(candidates),
+        "stars_searched": n_searched, "prefiltered": n_hits,
+        "screened": n_screened, "candidates": len(candidates),
         "threshold": (f"sky-plane distance of the geocentric ray from the outer-ring ellipse "
                       f"(R_out = {body.outer_ring_km:g} km) <= R_E {EARTH_RADIUS_KM} km + margin "
                       f"{margin_km:g} km"),
@@ -632,13 +822,15 @@ def search_candidates(body, table, window, *, kernels=None,
                       " arcsec) plus half a node step and each star's motion allowance"),
         "search_nodes_utc": [_utc(lo), _utc(hi)],
     }
+    if partitions is not None:
+        info["partitions"] = partitions
     return candidates, skipped, info
 
 
 def find_events(body, table, window, observers, *, kernels=None,
                 corrections: Corrections = Corrections(), margin_km: float = DEFAULT_MARGIN_KM,
                 node_step_s: float = DEFAULT_NODE_STEP_S, include_misses: bool = False,
-                progress=None) -> SearchResult:
+                progress=None, engine: str = "local", scheduler: str | None = None) -> SearchResult:
     """Candidate events of a catalog over a window for each observer (all three stages).
 
     ``observers`` is a list of :class:`occplan.ephemeris.Observer` or of
@@ -653,7 +845,7 @@ def find_events(body, table, window, observers, *, kernels=None,
     eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
     candidates, skipped, info = search_candidates(
         body, table, window, kernels=kernels, corrections=corrections, margin_km=margin_km,
-        node_step_s=node_step_s, progress=progress)
+        node_step_s=node_step_s, progress=progress, engine=engine, scheduler=scheduler)
     pairs = [(o.observer(), o) if isinstance(o, Site) else (o, None) for o in observers]
     events = []
     misses = 0

@@ -23,6 +23,8 @@ IncludeMisses = Annotated[bool, typer.Option("--include-misses", help="Keep site
 Weights = Annotated[Optional[str], typer.Option("--weights", help="Ranking weights TOML (any subset of occplan/data/ranking_weights.toml).")]
 NoZones = Annotated[bool, typer.Option("--no-zones", help="Skip the zone evaluation and scores (faster; then rank needs the search options again, not --from).")]
 Chart = Annotated[Optional[str], typer.Option("--chart", help="Also draw the season chart into this .png/.pdf/.svg file.")]
+Engine = Annotated[str, typer.Option("--engine", help="Where the catalog search runs: local (this process) or dask (per catalog piece on a Dask cluster).")]
+Scheduler = Annotated[Optional[str], typer.Option("--scheduler", help="Dask scheduler address for --engine dask, e.g. tcp://host:8786 (default: a local cluster of 2 workers).")]
 Progress = Annotated[Optional[bool], typer.Option("--progress/--no-progress", help="Progress bars on stderr (default: when stderr is a terminal).")]
 
 TABLE_COLUMNS = ["star_id", "site", "closest_approach_utc", "min_ring_radius_km", "regions",
@@ -76,23 +78,38 @@ def rank_settings(telescope, cadence, band, aperture, samples_per_wavelength, ma
                                 luminosity_class=luminosity_class)
 
 
+def open_catalog(catalog, columns, allow_no_motion):
+    """A Parquet file or folder as a partitioned catalog (read piece by piece), else a table."""
+    from ..partitions import ParquetCatalog, is_partitioned
+
+    if is_partitioned(catalog):
+        return ParquetCatalog(catalog, column_map(columns), allow_no_motion)
+    return read_catalog_table(catalog, column_map(columns), allow_no_motion)
+
+
 def run_find(body, catalog, columns, allow_no_motion, start, end, sites, site, lat, lon, height,
              geocentre, kernel, no_deflection, barycentre, margin, include_misses, settings,
-             weights, zones, progress):
+             weights, zones, progress, engine="local", scheduler=None):
     """Search, then (unless zones is False) evaluate and score: (rows, meta, result)."""
     if catalog is None:
-        raise InputError("give the star catalog: --catalog FILE (CSV, ECSV or VOTable)")
+        raise InputError("give the star catalog: --catalog FILE (CSV, ECSV, VOTable, Parquet "
+                         "file or folder)")
+    if engine not in ("local", "dask"):
+        raise InputError(f"--engine {engine!r}: give local or dask")
+    if scheduler is not None and engine != "dask":
+        raise InputError("--scheduler needs --engine dask")
     b = common.body(body)
     window = common.window(start, end)
     obs = observers(sites, site, lat, lon, height, geocentre)
     w = ranking.load_weights(weights) if zones else None
     search.check_window(b, window, kernel)  # before reading a large catalog
-    table = read_catalog_table(catalog, column_map(columns), allow_no_motion)
+    table = open_catalog(catalog, columns, allow_no_motion)
     corrections = Corrections(deflection=not no_deflection, barycentre_only=barycentre)
     result = search.find_events(b, table, window, obs, kernels=kernel, corrections=corrections,
                                 margin_km=margin, include_misses=include_misses,
-                                progress=progress)
-    ranking.print_note(table.report.summary())
+                                progress=progress, engine=engine, scheduler=scheduler)
+    if getattr(table, "report", None) is not None:
+        ranking.print_note(table.report.summary())
     if zones:
         ranking.score_events(result, kernels=kernel, corrections=corrections, settings=settings,
                              weights=w, progress=progress)
@@ -127,7 +144,7 @@ def register(app: typer.Typer) -> None:
         max_order: o.MaxOrder = 3, sigma: o.Sigma = None,
         luminosity_class: o.LuminosityClass = "auto", min_snr: o.MinSnr = 3.0,
         weights: Weights = None, no_zones: NoZones = False, chart: Chart = None,
-        progress: Progress = None,
+        progress: Progress = None, engine: Engine = "local", scheduler: Scheduler = None,
         fmt: o.Format = "table", out: o.Out = None, overwrite: o.Overwrite = False,
     ):
         """Candidate events of a star catalog over a window, per site, with zones and scores.
@@ -144,7 +161,7 @@ def register(app: typer.Typer) -> None:
         rows, meta, result = run_find(body, catalog, column, allow_no_motion, start, end, sites,
                                       site, lat, lon, height, geocentre, kernel, no_deflection,
                                       barycentre, margin, include_misses, settings, weights,
-                                      not no_zones, progress)
+                                      not no_zones, progress, engine, scheduler)
         info = meta["search"]
         header = (f"# {meta['body']}: {info['stars_searched']} stars searched, "
                   f"{info['candidates']} geocentric candidates, {len(rows)} events "
