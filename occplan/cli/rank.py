@@ -60,6 +60,9 @@ def register(app: typer.Typer) -> None:
         if source is not None:
             if catalog is not None:
                 raise InputError("give either --from FILE or --catalog (to search), not both")
+            from ..schema import check_find_result
+
+            check_find_result(source)
             rows, meta = ranking.read_find_result(source)
             evaluation_changed = (telescope is not None or settings.telescope_overrides
                                   or sigma is not None or max_order != 3)
