@@ -133,3 +133,52 @@ def test_find_with_a_bad_chart_name_writes_nothing(cli, tmp_path, monkeypatch):
               "--format", "json", "--chart", "c.jpg")
     assert res.exit_code == 2 and ".png, .pdf or .svg" in res.stderr
     assert sorted(p.name for p in tmp_path.iterdir()) == []
+
+
+def test_demo_interrupted_leaves_the_target_as_it_was(tmp_path, monkeypatch):
+    from occplan import demo
+
+    def half_build(out, *args):
+        (out / "candidates_saturn.ecsv").write_text("half")
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(demo, "_build", half_build)
+    with pytest.raises(KeyboardInterrupt):
+        demo.run_demo(tmp_path / "demo", log=lambda msg: None)
+    assert sorted(p.name for p in tmp_path.iterdir()) == []
+
+
+def test_demo_recovers_from_a_killed_run(tmp_path, monkeypatch):
+    """A run killed outright (SIGKILL) leaves its temporary folder; the next run removes it
+    and builds the target."""
+    from occplan import demo
+
+    dead = subprocess.Popen([sys.executable, "-c", "pass"])
+    dead.wait()
+    stale = tmp_path / f".demo{demo.BUILDING}abc"
+    (stale / "events").mkdir(parents=True)
+    (stale / ".pid").write_text(str(dead.pid))
+    alive = tmp_path / f".demo{demo.BUILDING}def"  # another run still working: kept
+    alive.mkdir()
+    (alive / ".pid").write_text(str(os.getpid()))
+
+    def build(out, *args):
+        (out / "report.md").write_text("report")
+        return demo.DemoResult(out_dir=out, files=[out / "report.md"])
+
+    monkeypatch.setattr(demo, "_build", build)
+    res = demo.run_demo(tmp_path / "demo", log=lambda msg: None)
+    assert res.files == [tmp_path / "demo" / "report.md"]
+    assert sorted(p.name for p in tmp_path.iterdir()) == [alive.name, "demo"]
+    assert sorted(p.name for p in (tmp_path / "demo").iterdir()) == ["events", "figures",
+                                                                     "report.md"]
+    # --overwrite replaces the demo's files and keeps the user's own
+    (tmp_path / "demo" / "mine.txt").write_text("keep")
+    (tmp_path / "demo" / "events" / "old.json").write_text("old")
+    with pytest.raises(OutputExistsError):
+        demo.run_demo(tmp_path / "demo", log=lambda msg: None)
+    demo.run_demo(tmp_path / "demo", overwrite=True, log=lambda msg: None)
+    assert sorted(p.name for p in (tmp_path / "demo").iterdir()) == ["events", "figures",
+                                                                     "mine.txt", "report.md"]
+    assert list((tmp_path / "demo" / "events").iterdir()) == []
+    assert sorted(p.name for p in tmp_path.iterdir()) == [alive.name, "demo"]
