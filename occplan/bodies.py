@@ -247,6 +247,9 @@ def _need(table: dict, key: str, where: str):
 
 def _parse(data: dict, path: str) -> Body:
     where = path
+    from .schema import BODY_SCHEMA, validate
+
+    validate(data, BODY_SCHEMA, f"body file {path!r}")
     try:
         grav = _need(data, "gravity", where)
         shape = _need(data, "shape", where)
@@ -346,6 +349,13 @@ def _parse(data: dict, path: str) -> Body:
     for r in body.rings:
         if not 0 < r.inner_km < r.outer_km:
             raise DataFileError(f"{where}: ring {r.name!r} needs 0 < inner_km < outer_km")
+        if r.inner_km <= body.equatorial_radius_km:
+            raise DataFileError(f"{where}: ring {r.name!r} starts at {r.inner_km:g} km, inside "
+                                f"the planet (equatorial radius {body.equatorial_radius_km:g} "
+                                "km); give inner_km above it")
+    for g in body.gaps:
+        if not 0 < g.inner_km < g.outer_km:
+            raise DataFileError(f"{where}: gap {g.name!r} needs 0 < inner_km < outer_km")
     return body
 
 
@@ -357,14 +367,9 @@ def builtin_names() -> list[str]:
 
 def load_body_file(path: str | Path) -> Body:
     """Load a body from a TOML file of the built-in layout."""
-    p = Path(path)
-    if not p.is_file():
-        raise DataFileError(f"body file {str(p)!r} not found")
-    try:
-        data = tomllib.loads(p.read_text(encoding="utf-8"))
-    except tomllib.TOMLDecodeError as exc:
-        raise DataFileError(f"body file {str(p)!r} is not valid TOML: {exc}") from None
-    return _parse(data, str(p))
+    from .schema import read_toml
+
+    return _parse(read_toml(path, "body"), str(path))
 
 
 @lru_cache(maxsize=None)

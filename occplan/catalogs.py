@@ -13,7 +13,6 @@ converted, V and K from Gaia photometry where no measured value is given
 
 from __future__ import annotations
 
-import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -41,40 +40,28 @@ class Site:
 
 
 def read_toml(path: str | Path, what: str) -> dict:
-    p = Path(path)
-    if not p.is_file():
-        raise DataFileError(f"{what} file {str(p)!r} not found")
-    try:
-        return tomllib.loads(p.read_text(encoding="utf-8"))
-    except tomllib.TOMLDecodeError as exc:
-        raise DataFileError(f"{what} file {str(p)!r} is not valid TOML: {exc}") from None
+    from .schema import read_toml as _read
+
+    return _read(path, what)
 
 
 def load_sites(path: str | Path) -> list[Site]:
     """All sites of a sites TOML file; telescope paths are resolved relative to the file."""
+    from .schema import SITES_SCHEMA, validate
+
     data = read_toml(path, "sites")
-    rows = data.get("sites")
-    if not isinstance(rows, list) or not rows:
+    if not isinstance(data.get("sites"), list) or not data["sites"]:
         raise DataFileError(f"sites file {str(path)!r} has no [[sites]] tables")
+    validate(data, SITES_SCHEMA, f"sites file {str(path)!r}")
     out = []
-    for i, row in enumerate(rows):
-        unknown = set(row) - SITE_KEYS
-        if unknown:
-            raise DataFileError(f"sites file {str(path)!r}, site {i + 1}: unknown key(s) "
-                                f"{', '.join(sorted(unknown))}; allowed: {', '.join(sorted(SITE_KEYS))}")
-        for key in ("name", "lat_deg", "lon_deg"):
-            if key not in row:
-                raise DataFileError(f"sites file {str(path)!r}, site {i + 1}: missing {key!r}")
+    for row in data["sites"]:
         tel = row.get("telescope")
         if tel is not None and not Path(tel).is_absolute():
             tel = str(Path(path).parent / tel)
-        try:
-            site = Site(str(row["name"]), float(row["lat_deg"]), float(row["lon_deg"]),
-                        float(row.get("height_m", 0.0)), tel,
-                        None if row.get("min_altitude_deg") is None else float(row["min_altitude_deg"]),
-                        str(row.get("note", "")))
-        except (TypeError, ValueError):
-            raise DataFileError(f"sites file {str(path)!r}, site {i + 1}: a value is not a number") from None
+        site = Site(str(row["name"]), float(row["lat_deg"]), float(row["lon_deg"]),
+                    float(row.get("height_m", 0.0)), tel,
+                    None if row.get("min_altitude_deg") is None else float(row["min_altitude_deg"]),
+                    str(row.get("note", "")))
         site.observer()  # range checks
         out.append(site)
     return out
@@ -319,10 +306,41 @@ def catalog_format(path: Path) -> str:
     return fmt
 
 
+def _check_header(path: Path) -> None:
+    """Refuse a CSV or ECSV whose column header is absurdly wide before astropy parses it
+    (a million columns took gigabytes): at most MAX_CATALOG_COLUMNS columns and
+    MAX_HEADER_BYTES bytes in the header line (occplan.schema)."""
+    from .schema import MAX_CATALOG_COLUMNS, MAX_HEADER_BYTES
+
+    with open(path, "rb") as fh:
+        while True:
+            line = fh.readline(MAX_HEADER_BYTES + 1)
+            if not line:
+                return
+            if len(line) > MAX_HEADER_BYTES:
+                raise DataFileError(f"catalog {str(path)!r}: a header line is longer than "
+                                    f"{MAX_HEADER_BYTES:,} bytes, over occplan's limit; give a "
+                                    f"catalog with at most {MAX_CATALOG_COLUMNS} columns")
+            text = line.decode("utf-8", "replace").removeprefix("\ufeff").strip()
+            if text and not text.startswith("#"):
+                break
+    sep = "," if path.suffix.lower() == ".csv" else None
+    n = len(text.split(sep))
+    if n > MAX_CATALOG_COLUMNS:
+        raise DataFileError(f"catalog {str(path)!r} has {n:,} columns, over occplan's limit of "
+                            f"{MAX_CATALOG_COLUMNS}; keep the columns occplan reads "
+                            f"({', '.join(CATALOG_COLUMNS)})")
+
+
 def _read_table(path: Path):
     from astropy.table import Table
 
+    from .schema import check_input_path
+
     fmt = catalog_format(path)
+    check_input_path(path, "catalog")
+    if fmt in ("ascii.csv", "ascii.ecsv") and not path.name.lower().endswith(COMPRESSED_SUFFIXES):
+        _check_header(path)
     try:
         import warnings
 
@@ -464,11 +482,13 @@ def read_catalog_table(path: str | Path, column_map: dict | None = None,
     :class:`DataFileError`.
     """
     from .gaia_photometry import best_magnitude, relations
+    from .schema import check_input_path
 
-    p = Path(path)
-    if not p.is_file():
-        raise DataFileError(f"catalog file {str(p)!r} not found")
+    p = check_input_path(path, "catalog")
     table = _read_table(p)
+    for name in table.colnames:  # a UTF-8 byte-order mark read as part of the first name
+        if name.startswith("\ufeff"):
+            table.rename_column(name, name.removeprefix("\ufeff"))
     cmap = {k: v for k, v in (column_map or {}).items()}
     unknown = set(cmap) - set(CATALOG_COLUMNS)
     if unknown:

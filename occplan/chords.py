@@ -19,6 +19,12 @@ from .errors import InputError
 from .ephemeris import Observer, get_ephemeris, time_from_tdb_s, utc_iso, window_tdb_s
 from .geometry import Corrections, Track, check_node_budget, compute_track, window_times
 
+# Sky-plane bound of the interpolated chord against exact geometry where the star is visible
+# and within twice the outer ring radius (tests/test_track_properties.py; seen: 5 m next to
+# the limbs of Uranus and Neptune, where the planet's deflection bends fastest; under 1 m
+# a few planet radii out).
+INTERPOLATION_SKY_TOL_M = 10.0
+
 CHORD_COLUMNS = ["time_utc", "ring_radius_km", "ring_longitude_deg", "radial_velocity_km_s",
                  "sky_f_km", "sky_g_km", "opening_angle_deg", "behind_planet", "region"]
 ASPECT_COLUMNS = ["time_utc", "opening_angle_deg", "sun_opening_angle_deg",
@@ -114,6 +120,15 @@ def chord(body, star, observer: Observer, window, step_s: float = 60.0, kernels=
     meta["crossings"] = pass_rows(track)
     meta["boundary_crossings"] = crossing_rows(track)
     meta["note"] = ring_note(track)
+    meta["behind_planet_rows"] = (
+        "rows with behind_planet true: the planet hides the star; their ring radius, longitude "
+        "and speed are virtual (where the ray, its deflection tapered inside the planet, would "
+        "meet the ring plane), interpolated without an accuracy bound (they may differ from "
+        "exact geometry by thousands of km)")
+    meta["interpolation_accuracy"] = (
+        f"visible rows within twice the outer ring radius: ring radius within "
+        f"{INTERPOLATION_SKY_TOL_M:g} m / |sin B*| of exact geometry (B* = star_elevation_deg), "
+        f"{INTERPOLATION_SKY_TOL_M:g} m in the sky plane; measured, tests/test_track_properties.py")
     return ChordResult(track=track, rows=track.rows(), meta=meta)
 
 

@@ -8,8 +8,10 @@ one output folder, offline.  The scenario is installed with the package as
 from __future__ import annotations
 
 import json
+import os
 import shutil
 import sys
+import tempfile
 import time
 import tomllib
 from dataclasses import dataclass, field
@@ -43,15 +45,74 @@ def scenario_dir() -> Path:
     return Path(str(resources.files(DEMO_PACKAGE)))
 
 
-def _prepare(out: Path, overwrite: bool) -> None:
-    if out.exists() and any(out.iterdir()):
-        if not overwrite:
-            raise OutputExistsError(f"{out} exists and is not empty; pass --overwrite to replace "
-                                    "its demo files, or --out another folder")
-        for sub in ("events", "figures"):
-            shutil.rmtree(out / sub, ignore_errors=True)
-    (out / "events").mkdir(parents=True, exist_ok=True)
-    (out / "figures").mkdir(parents=True, exist_ok=True)
+BUILDING = ".building-"  # the temporary folder a run builds in: .<name>.building-<random>
+
+
+def _pid_alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:  # exists, owned by someone else
+        return True
+    return True
+
+
+def _clear_stale(parent: Path, name: str, log) -> None:
+    """Remove the temporary folders of killed runs (their process is gone)."""
+    for stale in parent.glob(f".{name}{BUILDING}*"):
+        try:
+            pid = int((stale / ".pid").read_text().strip())
+        except (OSError, ValueError):
+            pid = None
+        if pid is None or not _pid_alive(pid):
+            shutil.rmtree(stale, ignore_errors=True)
+            log(f"removed {stale}, left by an interrupted demo run")
+
+
+def _prepare(out: Path, overwrite: bool, log=lambda msg: None) -> Path:
+    """Refuse a non-empty ``out`` without ``overwrite``; clear what killed runs left; return
+    the temporary folder, next to ``out``, that this run builds in."""
+    if out.exists() and any(out.iterdir()) and not overwrite:
+        raise OutputExistsError(f"{out} exists and is not empty; pass --overwrite to replace "
+                                "its demo files, or --out another folder")
+    parent = out.resolve().parent
+    _clear_stale(parent, out.name, log)
+    try:
+        staging = Path(tempfile.mkdtemp(dir=parent, prefix=f".{out.name}{BUILDING}"))
+    except OSError:  # the parent is not writable, the folder itself is (check_out_folder)
+        out.mkdir(exist_ok=True)
+        _clear_stale(out, out.name, log)
+        staging = Path(tempfile.mkdtemp(dir=out, prefix=f".{out.name}{BUILDING}"))
+    (staging / ".pid").write_text(str(os.getpid()))
+    (staging / "events").mkdir()
+    (staging / "figures").mkdir()
+    return staging
+
+
+def _move_into_place(staging: Path, out: Path, overwrite: bool) -> None:
+    """The finished folder becomes ``out``: renamed whole if ``out`` is absent or empty;
+    with ``overwrite``, its files replace their namesakes in ``out`` (other files stay)."""
+    (staging / ".pid").unlink()
+    if out.is_dir() and not any(out.iterdir()):
+        out.rmdir()
+    if not out.exists():
+        try:
+            os.rename(staging, out)
+            return
+        except OSError:
+            if not overwrite:
+                raise OutputExistsError(f"{out} appeared while the demo ran; pass --overwrite "
+                                        "or --out another folder") from None
+    if not overwrite and any(out.iterdir()):
+        raise OutputExistsError(f"{out} appeared while the demo ran; pass --overwrite or "
+                                "--out another folder")
+    for child in sorted(staging.iterdir()):
+        target = out / child.name
+        if target.is_dir() and not target.is_symlink():
+            shutil.rmtree(target)
+        os.replace(child, target)
+    staging.rmdir()
 
 
 def _why_first(rows: list[dict]) -> str:
@@ -119,7 +180,35 @@ def _network_page(out, name, body, rows, star_of, sites, settings, weights):
 def run_demo(out_dir: str | Path = "occplan-demo-output", overwrite: bool = False,
              top_events: int | None = None, progress: bool | None = None,
              log=None) -> DemoResult:
-    """Run the demo campaign into ``out_dir`` and return what was written."""
+    """Run the demo campaign into ``out_dir`` and return what was written.
+
+    The files are built in a temporary folder next to ``out_dir`` and moved into place at
+    the end, so an interrupted run leaves ``out_dir`` as it was; the temporary folder of a run
+    killed outright is removed by the next run.
+    """
+    from .tables import _terminate_cleanly
+
+    log = log or (lambda msg: print(msg, file=sys.stderr))
+    started = time.perf_counter()
+    here = scenario_dir()
+    camp = tomllib.loads((here / "campaign.toml").read_text(encoding="utf-8"))
+    final = Path(out_dir)
+    out = _prepare(final, overwrite, log)  # built here, moved to `final` at the end
+    with _terminate_cleanly():  # SIGTERM, like SIGINT, removes the temporary folder
+        try:
+            result = _build(out, camp, here, top_events, progress, log)
+            _move_into_place(out, final, overwrite)
+        except BaseException:
+            shutil.rmtree(out, ignore_errors=True)
+            raise
+    result.files = [final / Path(f).relative_to(out) for f in result.files]
+    result.out_dir = final
+    result.summary.append(f"done in {time.perf_counter() - started:.0f} s")
+    return result
+
+
+def _build(out: Path, camp: dict, here: Path, top_events, progress, log) -> DemoResult:
+    """The demo's files, written into ``out`` (the temporary folder)."""
     from .catalogs import load_sites, read_catalog_table
     from .chords import chord
     from .events import evaluate_event, summary_text
@@ -133,12 +222,6 @@ def run_demo(out_dir: str | Path = "occplan-demo-output", overwrite: bool = Fals
     from .bodies import get_body
     from .ephemeris import parse_utc, tdb_s_of
 
-    log = log or (lambda msg: print(msg, file=sys.stderr))
-    started = time.perf_counter()
-    here = scenario_dir()
-    camp = tomllib.loads((here / "campaign.toml").read_text(encoding="utf-8"))
-    out = Path(out_dir)
-    _prepare(out, overwrite)
     result = DemoResult(out_dir=out)
     sites = load_sites(here / camp["sites"])
     table = read_catalog_table(here / camp["catalog"])
@@ -234,5 +317,4 @@ def run_demo(out_dir: str | Path = "occplan-demo-output", overwrite: bool = Fals
                f"UTC, score {top['score']:.2f}" if top else "no event"))
     md, html_path = write_report(out, campaign_info, bodies_out)
     result.files += [md, html_path]
-    result.summary.append(f"done in {time.perf_counter() - started:.0f} s")
     return result

@@ -105,13 +105,9 @@ def load_weights(path: str | Path | None = None) -> Weights:
     if path is not None:
         p = Path(path)
         where = str(p)
-        if not p.is_file():
-            raise DataFileError(f"weights file {where!r} not found")
-        try:
-            text = p.read_bytes().decode("utf-8")
-        except UnicodeDecodeError:
-            raise DataFileError(f"weights file {where!r} is not UTF-8 text") from None
-        user = _parse_weights(text, repr(where))
+        from .schema import input_text
+
+        user = _parse_weights(input_text(p, "weights"), repr(where))
         user.pop("source", None)
         for table, entries in user.items():
             if table not in WEIGHT_KEYS or not isinstance(entries, dict):

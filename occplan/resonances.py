@@ -445,6 +445,11 @@ def _check(body, rmin_km, rmax_km, max_order, max_m, sigma_g_cm2, viscosity_cm2_
     rmax = body.outer_ring_km if rmax_km is None else float(rmax_km)
     if not (np.isfinite(rmin) and np.isfinite(rmax)) or rmin >= rmax:
         raise InputError(f"--rmin ({rmin:g} km) must be below --rmax ({rmax:g} km)")
+    reach_km = max([10.0 * body.outer_ring_km] + [sat.a_km for sat in body.satellites])
+    if rmax > reach_km:
+        raise InputError(f"--rmax {rmax:g} km is beyond {reach_km:g} km (ten times {body.name}'s "
+                         "outer ring radius or its outermost satellite's orbit, whichever is "
+                         "larger); resonances there are no ring features, give a smaller --rmax")
     if rmin <= body.equatorial_radius_km:
         raise InputError(f"--rmin {rmin:g} km is inside {body.name} (equatorial radius "
                          f"{body.equatorial_radius_km:g} km); give a ring radius above it")
@@ -452,6 +457,18 @@ def _check(body, rmin_km, rmax_km, max_order, max_m, sigma_g_cm2, viscosity_cm2_
         raise InputError(f"--max-order {max_order} is out of range; give 1, 2 or {MAX_ORDER}")
     if int(max_m) != max_m or max_m < 1:
         raise InputError(f"--max-m {max_m} must be a positive integer")
+    # Work budget: every satellite x term x m is a candidate row, and the solved ones cost
+    # Laplace coefficients of order m; 400,000 rows (Saturn's 14 satellites, order <= 3, m up
+    # to about 1,300) take about a minute and under 1 GB (m <= 1000: 34 s, 0.3 GB measured).
+    # Counted over all the body's satellites: --satellite only lowers the real cost.
+    MAX_RESONANCE_CANDIDATES = 400_000
+    n_rows = len(body.satellites) * len(resonance_terms(int(max_order))) * int(max_m)
+    if n_rows > MAX_RESONANCE_CANDIDATES:
+        per_m = len(body.satellites) * len(resonance_terms(int(max_order)))
+        raise InputError(f"--max-m {max_m:,} makes {n_rows:,} candidate resonances ({per_m} "
+                         f"per m for {body.name}), over the budget of "
+                         f"{MAX_RESONANCE_CANDIDATES:,}; give --max-m "
+                         f"{MAX_RESONANCE_CANDIDATES // per_m:,} or less (or a lower --max-order)")
     if sigma_g_cm2 is not None and not sigma_g_cm2 > 0:
         raise InputError(f"--sigma {sigma_g_cm2} g/cm^2 must be a positive surface density")
     if viscosity_cm2_s is not None and not viscosity_cm2_s > 0:

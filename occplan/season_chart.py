@@ -117,21 +117,32 @@ def season_aspect(body, window, kernels=None, points: int = 200):
     return [r["time_utc"] for r in rows], [r["opening_angle_deg"] for r in rows]
 
 
-def write_season_chart(path, rows: list[dict], body, window, kernels=None, overwrite=False,
-                       title: str | None = None) -> None:
-    """Draw the season chart into an image file (atomic write; refuses to overwrite)."""
+CHART_SUFFIXES = (".png", ".pdf", ".svg")
+
+
+def check_chart_path(path, overwrite=False) -> None:
+    """Refuse a chart file name before any work: an image type matplotlib writes, and a
+    path :func:`occplan.tables.check_out` accepts."""
     from pathlib import Path
 
     from .errors import InputError
     from .tables import check_out
 
-    p = Path(path)
-    check_out(p, overwrite)
-    if p.suffix.lower() not in (".png", ".pdf", ".svg"):
+    if Path(path).suffix.lower() not in CHART_SUFFIXES:
         raise InputError(f"--chart {path}: give a .png, .pdf or .svg file name")
+    check_out(path, overwrite)
+
+
+def write_season_chart(path, rows: list[dict], body, window, kernels=None, overwrite=False,
+                       title: str | None = None) -> None:
+    """Draw the season chart into an image file (atomic write; refuses to overwrite)."""
+    from pathlib import Path
+
+    p = Path(path)
+    check_chart_path(p, overwrite)
     fig = _figure()
     season_chart(rows, ax=fig.add_subplot(), aspect=season_aspect(body, window, kernels), title=title)
     from .tables import atomic_write
 
     atomic_write(p, lambda fh: fig.savefig(fh, format=p.suffix[1:].lower(), dpi=120,
-                                           bbox_inches="tight"))
+                                           bbox_inches="tight"), overwrite)

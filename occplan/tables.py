@@ -1,18 +1,23 @@
 """Tables out: a people's table on stdout, CSV, ECSV (units and provenance in the header) or JSON.
 
 A result is a list of row dicts plus a ``meta`` dict.  JSON output is one object
-``{"meta": ..., "rows": [...]}``.  Files are written whole to a temporary name and renamed,
-so a failure never leaves a half-written file.
+``{"meta": ..., "rows": [...]}``.  Files are written whole to a temporary name and moved
+into place (created exclusively unless --overwrite), so a failure, SIGINT or SIGTERM never
+leaves a half-written file; :func:`all_or_none` makes a command's several outputs appear
+together or not at all.
 """
 
 from __future__ import annotations
 
+import contextlib
 import io
 import json
 import math
 import os
+import signal
 import sys
 import tempfile
+import threading
 from pathlib import Path
 
 import numpy as np
@@ -205,26 +210,120 @@ def render(rows: list[dict], meta: dict, fmt: str, columns: list[str] | None = N
     return buf.getvalue()
 
 
-def atomic_write(path: str | Path, write) -> None:
+class Terminated(SystemExit):
+    """SIGTERM received while an output was being written (exit status 128 + 15)."""
+
+
+@contextlib.contextmanager
+def _terminate_cleanly():
+    """While inside, SIGTERM raises :class:`Terminated` like SIGINT raises KeyboardInterrupt,
+    so the ``finally`` blocks that remove temporary files run (main thread only: Python
+    delivers signals there; elsewhere the default action stays)."""
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+
+    def handler(signum, frame):
+        raise Terminated(128 + signal.SIGTERM)
+
+    previous = signal.signal(signal.SIGTERM, handler)
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGTERM, previous)
+
+
+# The outputs of one command while :func:`all_or_none` is active: (temp file, final path,
+# overwrite), linked into place together at the end.
+_STAGED: list | None = None
+
+
+def _install(tmp: str, path: Path, overwrite: bool) -> None:
+    """Move the finished temporary file to ``path``: replacing it with ``overwrite``, else
+    creating it exclusively (a hard link fails if ``path`` exists, so two processes cannot
+    both create it; no check-then-rename race)."""
+    if overwrite:
+        os.replace(tmp, path)
+        return
+    try:
+        os.link(tmp, path)
+    except FileExistsError:
+        raise OutputExistsError(f"{path} exists (another process wrote it meanwhile); pass "
+                                "--overwrite to replace it") from None
+    except OSError:
+        # file systems without hard links: claim the name exclusively, then replace it
+        try:
+            fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666)
+        except FileExistsError:
+            raise OutputExistsError(f"{path} exists (another process wrote it meanwhile); "
+                                    "pass --overwrite to replace it") from None
+        os.close(fd)
+        os.replace(tmp, path)
+        return
+    os.unlink(tmp)
+
+
+def atomic_write(path: str | Path, write, overwrite: bool = True) -> None:
     """Create ``path`` whole or not at all: ``write(binary_file)`` fills a temporary file in
     the same folder, which then gets the usual permissions (0666 less the umask; mkstemp
-    makes 0600) and is renamed over ``path``."""
+    makes 0600) and is moved to ``path`` (see :func:`_install`; without ``overwrite`` an
+    existing ``path`` is an :class:`OutputExistsError` and is left alone).
+
+    SIGINT and SIGTERM during the write remove the temporary file.  Inside
+    :func:`all_or_none` the file is only staged and moved at the end of the block.
+    """
     path = Path(path)
     directory = path.parent if str(path.parent) else Path(".")
     if not directory.is_dir():
         raise InputError(f"folder {str(directory)!r} for {path.name} does not exist")
-    fd, tmp = tempfile.mkstemp(dir=directory, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            write(fh)
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    tmp = None
+    with _terminate_cleanly():
+        try:
+            fd, tmp = tempfile.mkstemp(dir=directory, prefix=f".{path.name}.", suffix=".tmp")
+            with os.fdopen(fd, "wb") as fh:
+                write(fh)
+            umask = os.umask(0)
+            os.umask(umask)
+            os.chmod(tmp, 0o666 & ~umask)
+            if _STAGED is not None:
+                _STAGED.append((tmp, path, overwrite))
+                return
+            _install(tmp, path, overwrite)
+        except BaseException:
+            if tmp is not None and os.path.exists(tmp):
+                os.unlink(tmp)
+            raise
+
+
+@contextlib.contextmanager
+def all_or_none():
+    """Every file written with :func:`atomic_write` inside the block appears at its end, or
+    none does: an error (or SIGINT/SIGTERM) before the end removes the staged files, and a
+    failure while moving them into place removes those already moved (a file replaced with
+    --overwrite cannot be restored, it keeps the new content)."""
+    global _STAGED
+    if _STAGED is not None:  # nested: the outer block decides
+        yield
+        return
+    _STAGED = staged = []
+    done: list[Path] = []
+    with _terminate_cleanly():
+        try:
+            yield
+            for tmp, path, overwrite in staged:
+                existed = path.exists()
+                _install(tmp, path, overwrite)
+                if not existed:
+                    done.append(path)
+        except BaseException:
+            for tmp, _, _ in staged:
+                if os.path.exists(tmp):
+                    os.unlink(tmp)
+            for path in done:
+                path.unlink(missing_ok=True)
+            raise
+        finally:
+            _STAGED = None
 
 
 def emit(text: str, out: str | Path | None, overwrite: bool) -> None:
@@ -234,6 +333,8 @@ def emit(text: str, out: str | Path | None, overwrite: bool) -> None:
         return
     check_out(out, overwrite)
     try:
-        atomic_write(out, lambda fh: fh.write(text.encode("utf-8")))
+        atomic_write(out, lambda fh: fh.write(text.encode("utf-8")), overwrite)
+    except OutputExistsError:
+        raise
     except OSError as exc:
         raise OutputPathError(f"cannot write {out}: {exc.strerror or exc}") from None

@@ -180,9 +180,9 @@ def load_telescope(path: str | Path | None = None, **overrides) -> TelescopeProf
     if path is not None:
         p = Path(path)
         where = str(p)
-        if not p.is_file():
-            raise DataFileError(f"telescope file {where!r} not found")
-        user = _read_toml(p.read_text(encoding="utf-8"), repr(where))
+        from .schema import input_text
+
+        user = _read_toml(input_text(p, "telescope"), repr(where))
         _check_keys(user, repr(where))
         user_sources = user.pop("source", {})
         if not isinstance(user_sources, dict):

@@ -38,6 +38,12 @@ CASES = [
     (["zones", "--body", "saturn", "--rmin", "nan"], "--rmin"),
     (["zones", "--body", "saturn", "--rmax", "inf"], "--rmax"),
     (["zones", "--body", "saturn", "--viscosity", "nan"], "--viscosity"),
+    (["zones", "--body", "saturn", "--rmax", "1e300"], "--rmax"),
+    (["zones", "--body", "saturn", "--max-m", "100000"], "over the budget"),
+    (["zones", "--body", "uranus", "--max-m", "1000000000", "--terms"], "over the budget"),
+    (["info", "--format", "foo"], "--format"),
+    (["chord", "--star", STAR, *WINDOW, "--sites", "/dev/null", "--site", "x"],
+     "not a regular file"),
     (ASPECT + ["--step", "nan"], "--step"),
     # physical ranges
     (CHORD + ["--parallax", "1e11"], "--parallax"),

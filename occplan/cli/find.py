@@ -10,7 +10,7 @@ from .. import ranking, search
 from ..catalogs import find_site, load_sites, read_catalog_table
 from ..errors import InputError
 from ..geometry import Corrections
-from ..tables import check_format, check_out, emit, render
+from ..tables import all_or_none, check_format, check_out, emit, render
 from . import common
 from . import options as o
 
@@ -155,7 +155,9 @@ def register(app: typer.Typer) -> None:
         fmt = check_format(fmt)
         check_out(out, overwrite)
         if chart is not None:
-            check_out(chart, overwrite)
+            from ..season_chart import check_chart_path
+
+            check_chart_path(chart, overwrite)
         settings = rank_settings(telescope, cadence, band, aperture, samples_per_wavelength,
                                  max_order, sigma, min_snr, luminosity_class)
         rows, meta, result = run_find(body, catalog, column, allow_no_motion, start, end, sites,
@@ -167,9 +169,10 @@ def register(app: typer.Typer) -> None:
                   f"{info['candidates']} geocentric candidates, {len(rows)} events "
                   f"{meta['start_utc']} .. {meta['end_utc']}\n# threshold: {info['threshold']}\n")
         cols = [c for c in TABLE_COLUMNS if no_zones is False or c not in ("features_crossed", "features_resolvable", "score")]
-        output(rows, meta, fmt, out, overwrite, cols, header)
-        if chart is not None:
-            from ..season_chart import write_season_chart
+        with all_or_none():  # the table and the chart appear together or not at all
+            if chart is not None:
+                from ..season_chart import write_season_chart
 
-            write_season_chart(chart, rows, result.body, common.window(start, end), kernel,
-                               overwrite, title=f"{meta['body']}: candidate events")
+                write_season_chart(chart, rows, result.body, common.window(start, end), kernel,
+                                   overwrite, title=f"{meta['body']}: candidate events")
+            output(rows, meta, fmt, out, overwrite, cols, header)

@@ -27,6 +27,10 @@ def register(app: typer.Typer) -> None:
         import shapely
         import skyfield
 
+        if fmt not in ("table", "json"):
+            from ..errors import InputError
+
+            raise InputError(f"--format {fmt!r}: occplan info writes table or json")
         eph = get_ephemeris(tuple(str(k) for k in (kernel or [])))
         data = {
             "occplan": __version__, "python": platform.python_version(),

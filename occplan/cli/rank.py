@@ -9,7 +9,7 @@ import typer
 from .. import ranking, search
 from ..bodies import get_body
 from ..errors import InputError
-from ..tables import check_format, check_out
+from ..tables import all_or_none, check_format, check_out
 from . import find as f
 from . import options as o
 
@@ -51,7 +51,9 @@ def register(app: typer.Typer) -> None:
         fmt = check_format(fmt)
         check_out(out, overwrite)
         if chart is not None:
-            check_out(chart, overwrite)
+            from ..season_chart import check_chart_path
+
+            check_chart_path(chart, overwrite)
         if top is not None and top < 1:
             raise InputError(f"--top {top}: give a positive number of events")
         settings = f.rank_settings(telescope, cadence, band, aperture, samples_per_wavelength,
@@ -60,6 +62,9 @@ def register(app: typer.Typer) -> None:
         if source is not None:
             if catalog is not None:
                 raise InputError("give either --from FILE or --catalog (to search), not both")
+            from ..schema import check_find_result
+
+            check_find_result(source)
             rows, meta = ranking.read_find_result(source)
             evaluation_changed = (telescope is not None or settings.telescope_overrides
                                   or sigma is not None or max_order != 3)
@@ -87,9 +92,10 @@ def register(app: typer.Typer) -> None:
         header = (f"# {meta['body']}: {len(ranked)} events ranked by the ring features they resolve; "
                   f"{ranking.SCORE_FORMULA} (weights: "
                   + str(meta.get("ranking", {}).get("weights", {}).get("path", "")) + ")\n")
-        f.output(ranked, meta, fmt, out, overwrite, RANK_COLUMNS, header)
-        if chart is not None:
-            from ..season_chart import write_season_chart
+        with all_or_none():  # the table and the chart appear together or not at all
+            if chart is not None:
+                from ..season_chart import write_season_chart
 
-            write_season_chart(chart, ranked, b, window, kernels, overwrite,
-                               title=f"{meta['body']}: ranked candidate events")
+                write_season_chart(chart, ranked, b, window, kernels, overwrite,
+                                   title=f"{meta['body']}: ranked candidate events")
+            f.output(ranked, meta, fmt, out, overwrite, RANK_COLUMNS, header)
