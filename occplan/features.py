@@ -57,7 +57,6 @@ import tomllib
 from dataclasses import dataclass, replace
 from functools import lru_cache
 from importlib import resources
-from pathlib import Path
 
 import numpy as np
 
@@ -123,10 +122,9 @@ def load_settings(path: str | None = None) -> FeatureSettings:
     if path is None:
         text = (resources.files("occplan") / "data" / "features.toml").read_text(encoding="utf-8")
         return _read_settings(text, "occplan/data/features.toml")
-    p = Path(path)
-    if not p.is_file():
-        raise DataFileError(f"feature settings file {str(p)!r} not found")
-    return _read_settings(p.read_bytes().decode("utf-8", errors="strict"), str(p))
+    from .schema import input_text
+
+    return _read_settings(input_text(path, "feature settings"), str(path))
 
 
 # --------------------------------------------------------------------------- the feature

@@ -742,16 +742,16 @@ def save_event_figures(report, out, fmt: str | None = None, overwrite: bool = Fa
     written = []
     for path, what in targets:
         fig = event_figure(report) if what == "all" else _single(report, what)
-        _atomic_save(fig, path, fmt, dpi)
+        _atomic_save(fig, path, fmt, dpi, overwrite)
         written.append(path)
     return written
 
 
-def _atomic_save(fig, path: Path, fmt: str, dpi: int) -> None:
+def _atomic_save(fig, path: Path, fmt: str, dpi: int, overwrite: bool = True) -> None:
     from .tables import atomic_write
 
     atomic_write(path, lambda fh: fig.savefig(fh, format=fmt, dpi=dpi,
-                                              metadata=_file_metadata(fmt)))
+                                              metadata=_file_metadata(fmt)), overwrite=overwrite)
 
 
 def _file_metadata(fmt: str) -> dict:
@@ -768,5 +768,5 @@ def save_axes_figure(ax, path, overwrite: bool = False, dpi: int = 150) -> Path:
 
     path = Path(path)
     check_out(path, overwrite)
-    _atomic_save(ax.figure, path, path.suffix.lower()[1:], dpi)
+    _atomic_save(ax.figure, path, path.suffix.lower()[1:], dpi, overwrite)
     return path

@@ -478,7 +478,11 @@ def read_find_result(path: str | Path) -> tuple[list[dict], dict]:
                 elif isinstance(v, (str, np.str_)):
                     v = str(v)
                     if c in ("zones", "zone_factors"):
-                        v = json.loads(v)
+                        try:
+                            v = json.loads(v)
+                        except json.JSONDecodeError:
+                            raise DataFileError(f"find result {str(p)!r}: column {c!r} is not "
+                                                "valid JSON (was the file edited?)") from None
                 row[c] = v
             rows.append(row)
     else:

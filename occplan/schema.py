@@ -291,6 +291,19 @@ BODY_SCHEMA = table({
         "surface_density_g_cm2": _POSITIVE, "viscosity_cm2_s": _POSITIVE,
         "optical_depth": _NONNEGATIVE, "edge_inner_a_km": _RADIUS_KM,
         "edge_outer_a_km": _RADIUS_KM, "source": _TEXT,
+        # eccentric ring edges (occplan.ring_orbits, which checks the values again)
+        "orbit": table({
+            "epoch_jd_tdb": _ANY_NUMBER, "a_km": _RADIUS_KM, "e": number(0.0, 1.0, hi_open=True),
+            "periapse_deg": _ANY_NUMBER, "periapse_rate_deg_day": _ANY_NUMBER,
+            "inclination_deg": number(0.0, 180.0), "node_deg": _ANY_NUMBER,
+            "node_rate_deg_day": _ANY_NUMBER, "inner_a_km": _RADIUS_KM,
+            "inner_e": number(0.0, 1.0, hi_open=True), "outer_a_km": _RADIUS_KM,
+            "outer_e": number(0.0, 1.0, hi_open=True), "source": _TEXT,
+            "modes": array(table({
+                "m": integer(), "amplitude_km": _ANY_NUMBER, "phase_deg": _ANY_NUMBER,
+                "pattern_speed_deg_day": _ANY_NUMBER, "source": _TEXT,
+            }, required=("m", "amplitude_km", "phase_deg", "pattern_speed_deg_day"))),
+        }, required=("epoch_jd_tdb", "a_km", "e", "periapse_deg")),
     }, required=("name", "inner_km", "outer_km", "surface_density_g_cm2")), min_items=1),
     "gaps": array(table({
         "name": string(nonempty=True), "inner_km": _RADIUS_KM, "outer_km": _RADIUS_KM,
@@ -301,6 +314,12 @@ BODY_SCHEMA = table({
         "a_km": _RADIUS_KM, "e": number(0.0, 1.0, hi_open=True), "i_deg": number(0.0, 180.0),
         "mean_motion_deg_day": _POSITIVE, "source": _TEXT,
         "apsidal_rate_deg_day": _ANY_NUMBER, "nodal_rate_deg_day": _ANY_NUMBER,
+        # co-orbital configurations (Janus/Epimetheus): dated orbits
+        "configurations_source": _TEXT,
+        "configurations": array(table({
+            "start_jd_tdb": _ANY_NUMBER, "end_jd_tdb": _ANY_NUMBER, "a_km": _RADIUS_KM,
+            "mean_motion_deg_day": _POSITIVE,
+        }, required=("start_jd_tdb", "end_jd_tdb", "a_km", "mean_motion_deg_day"))),
         "mean_elements": table({
             "epoch_jd_tdb": _ANY_NUMBER, "a_km": _RADIUS_KM, "e": number(0.0, 1.0, hi_open=True),
             "inclination_deg": number(0.0, 180.0), "ascending_node_deg": _ANY_NUMBER,
