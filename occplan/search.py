@@ -748,7 +748,7 @@ def check_window(body, window, kernels=None) -> tuple[float, float]:
 
 
 def search_candidates(body, table, window, *, kernels=None,
-                      corrections: Corrections = Corrections(), margin_km: float = DEFAULT_MARGIN_KM,
+                      corrections: Corrections = Corrections(), margin_km: float | None = None,
                       node_step_s: float = DEFAULT_NODE_STEP_S, pad_s: float = DEFAULT_PAD_S,
                       progress=None, chunk_rows: int = DEFAULT_CHUNK_ROWS, engine: str = "local",
                       scheduler: str | None = None, workers: int = 2, dask_processes: bool = True):
@@ -762,8 +762,11 @@ def search_candidates(body, table, window, *, kernels=None,
         rows across the chunks).  A StarTable is read ``chunk_rows`` rows at a time.
     window : (start, end)
         UTC ISO strings or TDB seconds past J2000.
-    margin_km : float
-        Added to the Earth's radius in the threshold (module docstring).
+    margin_km : float, optional
+        Added to the Earth's radius in the threshold (module docstring).  Default: 3 sigma of
+        the planet's ephemeris position and of the catalog's worst star position when the
+        catalog has Gaia position errors (:func:`occplan.uncertainty.search_margin_km`), else
+        DEFAULT_MARGIN_KM.
     engine : "local" or "dask"
         "dask" runs stages 1 and 2 per catalog piece on a Dask cluster
         (:mod:`occplan.dask_engine`; ``scheduler`` address, else a LocalCluster of
@@ -776,10 +779,21 @@ def search_candidates(body, table, window, *, kernels=None,
     table = as_star_source(table)
     if engine not in ("local", "dask"):
         raise InputError(f"--engine {engine!r}: give local or dask")
-    if not np.isfinite(margin_km) or margin_km < 0:
-        raise InputError(f"--margin {margin_km} km must be >= 0")
     eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
     t0, t1 = check_window(body, window, kernels)
+    margin_from = "--margin"
+    if margin_km is None:
+        from .uncertainty import search_margin_km
+
+        mid = time_from_tdb_s(np.array([0.5 * (t0 + t1)]))
+        dist = float(np.linalg.norm(eph.planet_km(body, mid, barycentre_only=True)[:, 0]
+                                    - eph.earth_km(mid)[:, 0]))
+        margin_km, margin_from = search_margin_km(body, table, dist, 0.5 * (t0 + t1))
+        if margin_km is None:
+            margin_km = DEFAULT_MARGIN_KM
+            margin_from = f"fixed {DEFAULT_MARGIN_KM:g} km: {margin_from}"
+    if not np.isfinite(margin_km) or margin_km < 0:
+        raise InputError(f"--margin {margin_km} km must be >= 0")
     lo, hi = t0 - pad_s, t1 + pad_s
     try:
         eph.check_planet_coverage(body, time_from_tdb_s(np.array([lo - 3600.0, hi + 3600.0])))
@@ -817,6 +831,7 @@ def search_candidates(body, table, window, *, kernels=None,
                       f"(R_out = {body.outer_ring_km:g} km) <= R_E {EARTH_RADIUS_KM} km + margin "
                       f"{margin_km:g} km"),
         "threshold_km": EARTH_RADIUS_KM + margin_km, "margin_km": margin_km,
+        "margin_from": margin_from,
         "prefilter": (f"k-d tree on the planet's geocentric path, {node_step_s:g} s nodes; circle "
                       f"radius {threshold:.0f} km at the planet ({math.degrees(path.theta_rad) * 3600:.2f}"
                       " arcsec) plus half a node step and each star's motion allowance"),
@@ -828,7 +843,7 @@ def search_candidates(body, table, window, *, kernels=None,
 
 
 def find_events(body, table, window, observers, *, kernels=None,
-                corrections: Corrections = Corrections(), margin_km: float = DEFAULT_MARGIN_KM,
+                corrections: Corrections = Corrections(), margin_km: float | None = None,
                 node_step_s: float = DEFAULT_NODE_STEP_S, include_misses: bool = False,
                 progress=None, engine: str = "local", scheduler: str | None = None) -> SearchResult:
     """Candidate events of a catalog over a window for each observer (all three stages).
@@ -846,6 +861,7 @@ def find_events(body, table, window, observers, *, kernels=None,
     candidates, skipped, info = search_candidates(
         body, table, window, kernels=kernels, corrections=corrections, margin_km=margin_km,
         node_step_s=node_step_s, progress=progress, engine=engine, scheduler=scheduler)
+    margin_km = info["margin_km"]  # the one the search used (given, or from the errors)
     pairs = [(o.observer(), o) if isinstance(o, Site) else (o, None) for o in observers]
     events = []
     misses = 0

@@ -281,3 +281,28 @@ def recording_plan(first_s: float, last_s: float, sigma_first_s: float, sigma_la
             "rule": (f"first and last region crossing -+ ({RECORDING_SIGMAS:g} sigma + "
                      f"{RECORDING_MARGIN_S:g} s of baseline); frames at the camera's cadence; "
                      "volume = frames x frame size")}
+
+
+SEARCH_SIGMAS = 3.0  # find keeps stars within 3 sigma of the rings' reach
+
+
+def search_margin_km(body, table, distance_km: float, when_tdb_s: float) -> tuple[float | None, str]:
+    """The search margin from the error budget: 3 sigma of the planet's ephemeris position
+    and of the worst star position in the catalog (its Gaia errors propagated to the epoch),
+    at the planet's distance.  (None, reason) when the catalog carries no position errors:
+    the caller keeps its fixed margin then."""
+    errors = getattr(table, "errors", None) or {}
+    if "ra_error" not in errors or "dec_error" not in errors:
+        return None, "the catalog has no position errors (ra_error, dec_error)"
+    from .ephemeris import J2000_TDB_JD
+
+    dt_yr = (when_tdb_s - (np.asarray(table.epoch_jd_tt) - J2000_TDB_JD) * 86400.0) / JULIAN_YEAR_S
+    var = np.nan_to_num(errors["ra_error"]) ** 2 + np.nan_to_num(errors["dec_error"]) ** 2
+    for key in ("pmra_error", "pmdec_error"):
+        if key in errors:
+            var = var + (dt_yr * np.nan_to_num(errors[key])) ** 2
+    star_km = float(np.sqrt(np.max(var))) * distance_km * MAS_RAD if var.size else 0.0
+    planet_km = float(default_planet_errors(body).get("planet_sky_km") or 0.0)
+    margin = SEARCH_SIGMAS * math.hypot(star_km, planet_km)
+    return margin, (f"{SEARCH_SIGMAS:g} sigma of the planet's position ({planet_km:g} km) and the "
+                    f"catalog's worst star position ({star_km:.3g} km at the planet)")

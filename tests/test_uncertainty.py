@@ -156,3 +156,30 @@ def test_gaia_error_columns_reach_the_star(tmp_path):
     assert star.errors["pmra_error"] == pytest.approx(0.05)
     assert star.errors["ra_dec_corr"] == pytest.approx(0.2)
     assert un.star_covariance_mas2(star, 0.0) is not None
+
+
+def test_find_margin_from_the_catalog_errors():
+    """find's threshold margin: 3 sigma of the planet's position and of the worst star
+    position when the catalog has Gaia errors (occplan.uncertainty.search_margin_km), the
+    fixed default otherwise; the metadata says which."""
+    from occplan.catalogs import StarTable
+    from occplan.search import DEFAULT_MARGIN_KM, search_candidates
+
+    saturn = get_body("saturn")
+    stars = [StarSpec(24.0, 7.5, name="a", errors={"ra_error": 0.1, "dec_error": 0.1}),
+             StarSpec(24.1, 7.4, name="b", errors={"ra_error": 2.0, "dec_error": 2.0})]
+    table = StarTable.from_stars(stars)
+    window = ("2027-06-14T00:00Z", "2027-06-16T00:00Z")
+    _, _, info = search_candidates(saturn, table, window)
+    from occplan.ephemeris import time_from_tdb_s
+
+    eph = get_ephemeris()
+    mid = time_from_tdb_s(np.array([tdb_s_of(parse_utc("2027-06-15T00:00Z"))]))
+    dist_km = float(np.linalg.norm(eph.planet_km(saturn, mid, barycentre_only=True)[:, 0]
+                                   - eph.earth_km(mid)[:, 0]))
+    star_km = math.hypot(2.0, 2.0) * dist_km * un.MAS_RAD
+    assert info["margin_km"] == pytest.approx(3 * math.hypot(star_km, 5.0), rel=0.01)
+    assert "3 sigma" in info["margin_from"]
+    plain = StarTable.from_stars([StarSpec(24.0, 7.5, name="c")])
+    assert search_candidates(saturn, plain, window)[2]["margin_km"] == DEFAULT_MARGIN_KM
+    assert search_candidates(saturn, table, window, margin_km=123.0)[2]["margin_km"] == 123.0

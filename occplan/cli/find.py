@@ -18,7 +18,7 @@ from . import options as o
 SiteList = Annotated[Optional[list[str]], typer.Option("--site", help="Site name from --sites (repeatable; default: every site of the file).")]
 Column = Annotated[Optional[list[str]], typer.Option("--column", help="Catalog column map NAME=COLUMN (repeatable), e.g. --column ra=RA_ICRS.")]
 AllowNoMotion = Annotated[bool, typer.Option("--allow-no-motion", help="Use stars without proper motion or parallax (as zero; listed in the output metadata).")]
-Margin = Annotated[float, typer.Option("--margin", help="Added to the Earth's radius in the search threshold, km (ephemeris and star-position errors).")]
+Margin = Annotated[Optional[float], typer.Option("--margin", help="Added to the Earth's radius in the search threshold, km (default: 3 sigma of the planet's ephemeris position and the catalog's worst star position when the catalog has Gaia position errors, else 1000 km).")]
 IncludeMisses = Annotated[bool, typer.Option("--include-misses", help="Keep sites whose chord misses every ring region.")]
 Weights = Annotated[Optional[str], typer.Option("--weights", help="Ranking weights TOML (any subset of occplan/data/ranking_weights.toml).")]
 NoZones = Annotated[bool, typer.Option("--no-zones", help="Skip the zone evaluation and scores (faster; then rank needs the search options again, not --from).")]
@@ -138,7 +138,7 @@ def register(app: typer.Typer) -> None:
         height: o.Height = 0.0, geocentre: o.Geocentre = False,
         kernel: o.Kernel = None, no_deflection: o.NoDeflection = False,
         barycentre: o.Barycentre = False,
-        margin: Margin = search.DEFAULT_MARGIN_KM, include_misses: IncludeMisses = False,
+        margin: Margin = None, include_misses: IncludeMisses = False,
         telescope: o.Telescope = None, cadence: o.Cadence = None, band: o.Band = None,
         aperture: o.Aperture = None, samples_per_wavelength: o.SamplesPerWavelength = None,
         max_order: o.MaxOrder = 3, sigma: o.Sigma = None,

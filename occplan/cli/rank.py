@@ -34,7 +34,7 @@ def register(app: typer.Typer) -> None:
         height: o.Height = 0.0, geocentre: o.Geocentre = False,
         kernel: o.Kernel = None, no_deflection: o.NoDeflection = False,
         barycentre: o.Barycentre = False,
-        margin: f.Margin = search.DEFAULT_MARGIN_KM,
+        margin: f.Margin = None,
         telescope: o.Telescope = None, cadence: o.Cadence = None, band: o.Band = None,
         aperture: o.Aperture = None, samples_per_wavelength: o.SamplesPerWavelength = None,
         max_order: o.MaxOrder = 3, sigma: o.Sigma = None,
