@@ -16,7 +16,7 @@ import numpy as np
 from . import __version__
 from .constants import AU_KM
 from .errors import InputError
-from .ephemeris import Observer, get_ephemeris, time_from_tdb_s, utc_iso, window_tdb_s
+from .ephemeris import Observer, get_ephemeris, time_from_tdb_s, utc_iso
 from .geometry import Corrections, Track, check_node_budget, compute_track, window_times
 
 # Sky-plane bound of the interpolated chord against exact geometry where the star is visible
@@ -37,6 +37,13 @@ class ChordResult:
     track: Track
     rows: list
     meta: dict
+
+    def to_table(self):
+        """The chord as an astropy QTable: units on every physical column, a UTC Time column
+        (:data:`occplan.columns.COLUMN_UNITS`); the metadata in ``.meta``."""
+        from .tables import to_astropy
+
+        return to_astropy(self.rows, self.meta, qtable=True)
 
 
 def crossing_rows(track: Track) -> list[dict]:
@@ -101,10 +108,16 @@ def chord(body, star, observer: Observer, window, step_s: float = 60.0, kernels=
           deflection: bool = True, barycentre_only: bool = False, exact: bool = False) -> ChordResult:
     """The chord table of a star for an observer over a window (start, end).
 
-    ``window`` items are UTC ISO strings or TDB seconds past J2000.
+    ``body`` a Body or its name; ``star`` a StarSpec or an astropy SkyCoord; ``observer`` an
+    Observer or an astropy EarthLocation; ``window`` items UTC ISO strings, astropy Times or
+    TDB seconds past J2000 (:mod:`occplan.astro`).  ``.to_table()`` of the result is a QTable.
     """
+    from .astro import observer as as_observer, star_spec, window_seconds
+    from .bodies import get_body
+
+    body, star, observer = get_body(body), star_spec(star), as_observer(observer)
     eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
-    t0, t1 = window_tdb_s(window)
+    t0, t1 = window_seconds(window)
     check_chord_step(t0, t1, step_s)
     times = window_times(t0, t1, step_s)
     track = compute_track(eph, body, observer, star, times,
@@ -162,9 +175,14 @@ def aspect(body, observer: Observer, window, step_s: float = 3600.0, kernels=Non
     B = asin(n.(O-P)/|O-P|) (planetocentric latitude of the observer w.r.t. the ring plane);
     B' the same for the Sun at the planet's light-time-corrected epoch; P the position angle
     of the projected pole from celestial north through east, for the direction to the planet.
+    Accepts astropy objects as :func:`chord` does.
     """
+    from .astro import observer as as_observer, window_seconds
+    from .bodies import get_body
+
+    body, observer = get_body(body), as_observer(observer)
     eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
-    t0, t1 = window_tdb_s(window)
+    t0, t1 = window_seconds(window)
     times = window_times(t0, t1, step_s)
     when = time_from_tdb_s(times)
     eph.check_planet_coverage(body, when)

@@ -81,6 +81,15 @@ class EventReport:
             })
         return rows
 
+    def to_table(self):
+        """The feature crossings as an astropy QTable (units, UTC Time columns), the rest of
+        the report in ``.meta``."""
+        from .tables import to_astropy
+
+        data = self.to_json()
+        return to_astropy(self.zone_rows(), {k: v for k, v in data.items() if k != "zones"},
+                          qtable=True)
+
     def from_memory(self) -> list[str]:
         """Which inputs of this event rest on values the data files mark "from memory"."""
         out = []
@@ -177,14 +186,23 @@ def evaluate_event(body, star, observer: Observer, window, *, telescope=None, ke
                    pole_error_deg: float | None = None) -> EventReport:
     """Evaluate one candidate occultation (see the module docstring).
 
-    ``window`` is (start, end) as UTC ISO strings or TDB seconds past J2000;
-    ``telescope`` a :class:`occplan.telescope.TelescopeProfile` (default profile if None).
+    ``body`` a Body or its name; ``star`` a StarSpec or an astropy SkyCoord; ``observer`` an
+    Observer or an astropy EarthLocation; ``window`` (start, end) as UTC ISO strings,
+    astropy Times or TDB seconds past J2000; ``telescope`` a
+    :class:`occplan.telescope.TelescopeProfile` (default profile if None).  ``.to_table()``
+    of the report is a QTable of its feature crossings.
     ``star_error_mas``, ``planet_error_km``, ``pole_error_deg`` override the error budget
     (:func:`occplan.uncertainty.error_budget`).
     """
     from . import observability as obs_mod
     from . import photometry as ph
+    from .astro import observer as as_observer, star_spec, window_seconds
+    from .bodies import get_body
     from .telescope import load_telescope
+
+    # the public boundary: a body name, a SkyCoord, an EarthLocation, astropy Times
+    body, star, observer = get_body(body), star_spec(star), as_observer(observer)
+    window = window_seconds(window)
 
     tel = telescope or load_telescope()
     spw = samples_per_wavelength or tel.samples_per_wavelength or DEFAULT_SAMPLES_PER_WAVELENGTH

@@ -644,6 +644,13 @@ def _narrow_rings(body, feats: list[Feature], segs, settings) -> list[Feature]:
     return out
 
 
+def features_table(features):
+    """A list of features as an astropy QTable with units (:mod:`occplan.columns`)."""
+    from .tables import to_astropy
+
+    return to_astropy([f.to_row() for f in features], {}, qtable=True)
+
+
 # --------------------------------------------------------------------------- public entry
 
 

@@ -455,6 +455,7 @@ def read_find_result(path: str | Path) -> tuple[list[dict], dict]:
         import csv
 
         from astropy.table import Table
+        from astropy.time import Time
 
         # the crossing records of an event are one JSON cell, often longer than the csv
         # module's default field limit of 128 kB
@@ -469,7 +470,9 @@ def read_find_result(path: str | Path) -> tuple[list[dict], dict]:
             row = {}
             for c in table.colnames:
                 v = rec[c]
-                if isinstance(v, (np.floating, float)):
+                if isinstance(table[c], Time):  # UTC Time columns back to ISO 8601 with Z
+                    v = None if np.ma.is_masked(v) or getattr(v, "mask", False) else v.isot + "Z"
+                elif isinstance(v, (np.floating, float)):
                     v = None if not np.isfinite(v) else float(v)
                 elif isinstance(v, np.integer):
                     v = int(v)

@@ -568,6 +568,16 @@ class SearchResult:
     skipped: list  # (star_id, reason)
     meta: dict
 
+    def to_table(self):
+        """The events as an astropy QTable (units, UTC Time columns; scores and their factors
+        when :func:`occplan.ranking.score_events` has run), the search metadata in ``.meta``."""
+        from .ranking import event_rows
+        from .tables import to_astropy
+
+        rows = [{k: v for k, v in r.items() if k not in ("zones", "zone_factors")}
+                for r in event_rows(self)]
+        return to_astropy(rows, self.meta, qtable=True)
+
     def rows(self) -> list[dict]:
         out = []
         for ev in self.events:

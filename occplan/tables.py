@@ -27,17 +27,6 @@ from .errors import InputError, OutputExistsError, OutputPathError
 FORMATS = ("table", "csv", "ecsv", "json")
 
 
-def _unit_of(name: str) -> str | None:
-    for suffix, unit in (
-        ("_km_s", "km / s"), ("_deg_day", "deg / d"), ("_rad_s", "rad / s"), ("_km", "km"),
-        ("_deg", "deg"), ("_au", "AU"), ("_arcsec", "arcsec"), ("_s", "s"), ("_g_cm2", "g / cm2"),
-        ("_mas", "mas"), ("_um", "um"),
-    ):
-        if name.endswith(suffix):
-            return unit
-    return None
-
-
 def _plain(value):
     """JSON-safe version of a value (numpy scalars, nan -> None)."""
     if isinstance(value, dict):
@@ -133,14 +122,41 @@ def check_out_folder(out: str | Path) -> None:
     _probe_folder(parent, path.name)
 
 
-def to_astropy(rows: list[dict], meta: dict, columns: list[str] | None = None):
-    """An astropy Table with units inferred from the column-name suffixes."""
-    from astropy.table import Table
+def _time_column(values):
+    """An astropy Time column (UTC, ISO 8601) from strings; missing values masked."""
+    from astropy.time import Time
+
+    iso = [v.rstrip("Z") if isinstance(v, str) and v else "2000-01-01T00:00:00" for v in values]
+    t = Time(iso, format="isot", scale="utc", precision=3)
+    missing = [not (isinstance(v, str) and v) for v in values]
+    if any(missing):
+        t = t.copy()
+        for i, gone in enumerate(missing):
+            if gone:
+                t[i] = np.ma.masked
+    return t
+
+
+def to_astropy(rows: list[dict], meta: dict, columns: list[str] | None = None, qtable: bool = False,
+               times: bool = True):
+    """An astropy Table (or QTable) of the rows: every physical column with its unit from
+    :data:`occplan.columns.COLUMN_UNITS` and the UTC columns as Time columns
+    (:data:`occplan.columns.TIME_COLUMNS`; ``times=False`` keeps them as ISO 8601 text
+    ending in Z, as CSV writes them); nested values as JSON text."""
+    from astropy.table import QTable, Table
+
+    from .columns import TIME_COLUMNS, unit_of
 
     cols = columns or (list(rows[0].keys()) if rows else [])
     table = Table()
     for c in cols:
         vals = [r.get(c) for r in rows]
+        if times and c in TIME_COLUMNS and all(v is None or isinstance(v, str) for v in vals):
+            try:
+                table[c] = _time_column(vals)
+                continue
+            except ValueError:
+                pass  # not ISO times after all: keep the text
         if any(isinstance(v, (dict, list)) for v in vals):
             vals = [json.dumps(_plain(v)) for v in vals]
         elif any(isinstance(v, float) or v is None for v in vals) and not any(
@@ -148,11 +164,11 @@ def to_astropy(rows: list[dict], meta: dict, columns: list[str] | None = None):
         ):
             vals = [np.nan if v is None else v for v in vals]
         table[c] = vals
-        unit = _unit_of(c)
-        if unit and table[c].dtype.kind == "f":
-            table[c].unit = unit
+        unit = unit_of(c)
+        if unit is not None and table[c].dtype.kind in "fiu":
+            table[c].unit = unit or None
     table.meta.update(_plain(meta))
-    return table
+    return QTable(table) if qtable else table
 
 
 def _format_cell(v, column: str = "") -> str:
@@ -200,7 +216,7 @@ def render(rows: list[dict], meta: dict, fmt: str, columns: list[str] | None = N
         return json.dumps({"meta": _plain(meta), "rows": _plain(rows)}, indent=1) + "\n"
     if fmt == "table":
         return (header or "") + render_text(rows, columns)
-    table = to_astropy(rows, meta, columns)
+    table = to_astropy(rows, meta, columns, times=(fmt == "ecsv"))
     buf = io.StringIO()
     if fmt == "csv":
         table.meta.clear()
