@@ -11,7 +11,8 @@ __version__ = "0.1.0"
 _API = {
     "chord": "occplan.chords", "aspect": "occplan.chords",
     "evaluate_event": "occplan.events",
-    "body_features": "occplan.features",
+    "body_features": "occplan.features", "features_table": "occplan.features",
+    "evaluate_network": "occplan.network", "choose_stations": "occplan.network",
     "find_events": "occplan.search",
     "score_events": "occplan.ranking", "rank_rows": "occplan.ranking",
     "read_catalog": "occplan.catalogs", "read_catalog_table": "occplan.catalogs",

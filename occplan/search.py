@@ -750,8 +750,10 @@ def search_path(eph, body, path: PlanetPath, chunks, window, corrections: Correc
 
 def check_window(body, window, kernels=None) -> tuple[float, float]:
     """The window in TDB seconds, after checking it against the kernels' coverage."""
+    from .astro import window_seconds
+
     eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
-    t0, t1 = window_tdb_s(window)
+    t0, t1 = window_seconds(window)  # UTC ISO strings, astropy Times or TDB seconds
     eph.check_planet_coverage(body, time_from_tdb_s(np.array([t0, t1])))
     eph.check_observer_coverage(Observer.geocentre(), time_from_tdb_s(np.array([t0, t1])))
     return t0, t1
