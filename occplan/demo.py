@@ -159,6 +159,11 @@ def _network_page(out, name, body, rows, star_of, sites, settings, weights):
     picked = choose_stations(res, len(sites))
     rel = f"figures/network_{name}.png"
     save_axes_figure(ring_plane_coverage(res, body), out / rel, overwrite=True)
+    from .world import world_grid, world_map
+
+    where_rel = f"figures/where_{name}.png"
+    grid = world_grid(body, star, window, resolution_deg=5.0, step_s=60.0)
+    save_axes_figure(world_map(grid), out / where_rel, overwrite=True)
     by_name = {st.name: st for st in res.stations}
     table = []
     for i, (station, gain, total) in enumerate(picked, start=1):
@@ -174,7 +179,10 @@ def _network_page(out, name, body, rows, star_of, sites, settings, weights):
             "longitude it samples them. Stations in the order a team would ask for them, each "
             "with what it adds to those before it"
             + (f"; {', '.join(others)} would add nothing (no observable feature)." if others else "."))
-    return {"figure": rel, "table": table, "text": text}
+    text += (f" The world map shows where on Earth the event is observable "
+             f"({int(grid.observable.sum())} of {grid.lat_deg.size} grid points) and how deep "
+             "into the rings each place's chord reaches.")
+    return {"figure": rel, "where_figure": where_rel, "table": table, "text": text}
 
 
 def run_demo(out_dir: str | Path = "occplan-demo-output", overwrite: bool = False,
@@ -305,7 +313,7 @@ def _build(out: Path, camp: dict, here: Path, top_events, progress, log) -> Demo
                 "features resolved")
         network = _network_page(out, name, body, rows, star_of, sites, settings, weights)
         if network:
-            result.files.append(out / network["figure"])
+            result.files += [out / network["figure"], out / network["where_figure"]]
         bodies_out.append({"body": body.name, "candidates": len(rows), "network": network,
                            "ranked": [r for r in rows[:12]], "factor_columns": FACTOR_COLUMNS,
                            "why_first": _why_first(rows), "season_chart": chart_rel,

@@ -713,6 +713,20 @@ class Ephemeris:
             warnings.simplefilter("ignore")
             return self.observer_skyfield(observer).at(t).position.km
 
+    def itrs_to_icrs(self, tdb_jd):
+        """Rotation matrices (3, 3, N) taking Earth-fixed (ITRS) vectors to ICRF at the given
+        times, with the time scale's UT1 and polar motion (skyfield's ITRS frame)."""
+        from skyfield.framelib import itrs
+
+        t = as_time(tdb_jd)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            rot = itrs.rotation_at(t)  # ICRF -> ITRS
+        rot = np.asarray(rot)
+        if rot.ndim == 2:
+            rot = rot[:, :, None]
+        return np.transpose(rot, (1, 0, 2))
+
     def check_observer_coverage(self, observer: Observer, tdb_jd) -> None:
         target = 399 if observer.kind != "spacecraft" else observer.naif_id
         self.check_coverage(target, tdb_jd, f"the observer ({observer.name})")

@@ -119,6 +119,9 @@ def write_report(out_dir: str | Path, campaign: dict, bodies: list[dict]) -> tup
                         ("deciding_features", "its deciding features")]
             md += [f"### {b['body']}: the network for the best event", "", net["text"], "",
                    _md_table(net["table"], cols_net), "", f"![network coverage]({net['figure']})", ""]
+            if net.get("where_figure"):
+                md += [f"![where on Earth]({net['where_figure']})", ""]
+                html_parts.append(_img(out, net["where_figure"], "where on Earth"))
             html_parts += [f"<h3>{html.escape(b['body'])}: the network for the best event</h3>",
                            f"<p>{html.escape(net['text'])}</p>", _html_table(net["table"], cols_net),
                            _img(out, net["figure"], "network coverage")]

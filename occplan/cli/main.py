@@ -17,8 +17,8 @@ from .. import __version__
 from ..errors import OccplanError
 
 COMMAND_MODULES = [
-    "chord", "event", "zones", "find", "rank", "plot", "aspect", "network", "demo", "bodies",
-    "info",
+    "chord", "event", "zones", "find", "rank", "plot", "aspect", "network", "where", "demo",
+    "bodies", "info",
 ]
 
 
