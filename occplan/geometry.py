@@ -85,6 +85,25 @@ class Corrections:
     barycentre_only: bool = False
 
 
+def deflect_offset(d, distance_km, body):
+    """The ray's offset from the planet centre (3, N) after the planet's light deflection,
+    and the outward shift (km).
+
+    A point mass deflects a ray passing at impact parameter b outward to
+    b' = (b + sqrt(b^2 + 4 R_E^2)) / 2, R_E^2 = 4 GM D / c^2 (the Einstein-ring form; about
+    R_E^2 / b for b >> R_E).  Inside the polar radius the ray is blocked by the planet
+    whatever its deflection; there b is replaced by b + (Rp - b)^3 / Rp^2 (C2-continuous at
+    Rp, >= 0.6 Rp) so the hidden stretch of the track stays smooth for the splines.  Visible
+    rays always have b >= Rp, so they get the exact deflection.
+    """
+    b = np.linalg.norm(d, axis=0)
+    re2 = 4.0 * body.gm_km3_s2 * distance_km / SPEED_OF_LIGHT_KM_S**2
+    rp = body.polar_radius_km
+    b_eff = np.where(b < rp, b + (rp - b) ** 3 / rp**2, b)
+    shift = 0.5 * (b_eff + np.sqrt(b_eff * b_eff + 4.0 * re2)) - b_eff
+    return d * ((b + shift) / np.where(b > 0, b, 1.0)), shift
+
+
 def exact_geometry(eph, body, observer, star, tdb_s, corrections: Corrections = Corrections()):
     """Exact ring-plane geometry at each time (no interpolation).
 
@@ -142,16 +161,7 @@ def exact_geometry(eph, body, observer, star, tdb_s, corrections: Corrections = 
     d = _dot(q, s) * s - q
     shift = np.zeros_like(distance)
     if corrections.deflection:
-        b = np.linalg.norm(d, axis=0)
-        re2 = 4.0 * body.gm_km3_s2 * distance / SPEED_OF_LIGHT_KM_S**2
-        # Inside the polar radius the ray is blocked by the planet whatever its deflection;
-        # there b is replaced by b + (Rp - b)^3 / Rp^2 (C2-continuous at Rp, >= 0.6 Rp) so
-        # the hidden stretch of the track stays smooth for the splines.  Visible rays always
-        # have b >= Rp, so they get the exact deflection.
-        rp = body.polar_radius_km
-        b_eff = np.where(b < rp, b + (rp - b) ** 3 / rp**2, b)
-        shift = 0.5 * (b_eff + np.sqrt(b_eff * b_eff + 4.0 * re2)) - b_eff
-        d = d * ((b + shift) / np.where(b > 0, b, 1.0))
+        d, shift = deflect_offset(d, distance, body)
     origin = planet + d - _dot(q, s) * s  # a point on the (shifted) ray: the closest point
     lam = _dot(n, planet - origin) / _sin_elevation(n, s)
     rho = origin + lam * s - planet

@@ -37,6 +37,7 @@ from .constants import SECONDS_PER_DAY, SPEED_OF_LIGHT_KM_S
 from .ephemeris import J2000_TDB_JD, Observer, time_from_tdb_s
 from .errors import GeometryError
 from .geometry import (EDGE_ON_LIMIT_DEG, LIGHT_TIME_PASSES, Corrections, _check_edge_on, _deflection_by_sun,
+                       deflect_offset,
                        _sin_elevation, intercept_reach_km)
 
 GRID_PER_PATH_STEP = 30  # spline nodes per path node step (120 s for 1 h path nodes)
@@ -206,12 +207,7 @@ def pair_geometry(body, ephem: PathEphemeris, t, pos, vel, epoch_jd, star_dist_k
     qs = _dot(q, s)
     d = qs * s - q
     if corrections.deflection:
-        b = np.linalg.norm(d, axis=0)
-        re2 = 4.0 * body.gm_km3_s2 * distance / SPEED_OF_LIGHT_KM_S**2
-        rp = body.polar_radius_km
-        b_eff = np.where(b < rp, b + (rp - b) ** 3 / rp**2, b)
-        shift = 0.5 * (b_eff + np.sqrt(b_eff * b_eff + 4.0 * re2)) - b_eff
-        d = d * ((b + shift) / np.where(b > 0, b, 1.0))
+        d, _ = deflect_offset(d, distance, body)
     origin = planet + d - qs * s
     lam = _dot(n, planet - origin) / _sin_elevation(n, s)
     rho = origin + lam * s - planet
