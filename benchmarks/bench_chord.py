@@ -52,7 +52,7 @@ def main() -> None:
     print(f"exact per sample:    {best_exact:.3f} s")
     print(f"speed ratio: {best_exact / best_fast:.1f}x (target >= 50x)")
     print(f"ephemeris (site + planet) at every sample: {best_eph:.3f} s; chord / ephemeris = "
-          f"{best_fast / best_eph:.2f} (DESIGN target <= 0.5)")
+          f"{best_fast / best_eph:.2f} (target <= 0.5)")
     print(f"max radius difference: {dr[~exact.behind_planet].max() * 1e3:.3f} m where the star "
           f"is visible, {dr[in_rings].max() * 1e3:.3f} m on the visible rings (target <= 1 m); "
           f"{dr[exact.behind_planet].max() * 1e3:.2f} m behind the planet")

@@ -12,7 +12,7 @@ One thread (set below, before numpy loads).  Reports, for Saturn over 2027:
      searched with pruning;
   4. the Dask engine on 2 local worker processes against the in-process engine on that
      catalog (same candidates, time ratio).
-Targets (DESIGN.md section 10): 1e6 under 10 s, 1e7 under 100 s and 2 GB, 5 years at most
+Targets (docs/find_at_scale.md): 1e6 under 10 s, 1e7 under 100 s and 2 GB, 5 years at most
 2x one year, pruning under 2 % of partitions.
 """
 

@@ -1,4 +1,4 @@
-"""Benchmark (DESIGN.md sec. 10): a body's whole feature catalogue, target under 0.5 s.
+"""Benchmark (occplan's speed target): a body's whole feature catalogue, target under 0.5 s.
 
 Times, side by side in one run, for Saturn (every satellite, order <= 3, m <= 200): the
 resonance terms (occplan.resonances.find_resonances) and the features derived from them

@@ -14,7 +14,7 @@ axis and v along the projected pole, r^2 = u^2 + v^2 / sin^2 B*, so
 short one).  The achievable resolution combines in quadrature the radial distance covered in
 one sample (|dr/dt| x cadence), the Fresnel scale sqrt(lambda D / 2) and the star's projected
 diameter, each projected by |grad r|.  A zone is resolvable when that is below lambda_min / 2
-(DESIGN.md sec. 6) and, when the signal to noise could be evaluated, the SNR per resolution
+(docs/features_and_scoring.md, section 2) and, when the signal to noise could be evaluated, the SNR per resolution
 element reaches ``min_snr``.
 
 Sky-plane polygons (shapely): the oblate planet's disk is an ellipse with semi-axes R_eq and
@@ -29,8 +29,7 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-import shapely
-from shapely.geometry import LineString, Point, Polygon
+from shapely.geometry import LineString, Polygon
 
 from .geometry import Track
 
@@ -119,38 +118,12 @@ class SkyScene:
         self.disk = planet_disk(body, star_elevation_deg, pole_angle_deg)
         self.rings = {r.name: ring_annulus(r.inner_km, r.outer_km, star_elevation_deg, pole_angle_deg)
                       for r in body.rings}
-        all_rings = shapely.union_all(list(self.rings.values()))
-        far = far_side(all_rings, star_elevation_deg, pole_angle_deg, body.outer_ring_km)
-        self.near_rings = all_rings.difference(far)
-        # what the observer sees of the rings: the near side everywhere, the far side off the disk
-        self.visible_rings = self.near_rings.union(far.difference(self.disk))
-        self.visible_disk = self.disk.difference(self.near_rings)
-        self._fill_cache = {}
 
     @classmethod
     def for_track(cls, track: Track) -> "SkyScene":
         m = track.meta
         return cls(track.body, m["opening_angle_deg"], m["star_elevation_deg"],
                    m["pole_position_angle_deg"])
-
-    def aperture_fill(self, f_km: float, g_km: float, radius_km: float) -> dict:
-        """Fractions of a photometric aperture (circle of ``radius_km`` around the star at
-        sky offset (f, g)) covered by visible rings and by the visible planet disk.
-
-        Positions are quantized to a tenth of the aperture radius and cached: the fill
-        fractions change by a few per cent at most over that distance."""
-        q = radius_km / 10.0
-        key = (round(f_km / q), round(g_km / q), round(radius_km, 3))
-        if key not in self._fill_cache:
-            self._fill_cache[key] = self._fill(key[0] * q, key[1] * q, radius_km)
-        return self._fill_cache[key]
-
-    def _fill(self, f_km: float, g_km: float, radius_km: float) -> dict:
-        circle = Point(f_km, g_km).buffer(radius_km, 64)
-        area = circle.area
-        ring = min(circle.intersection(self.visible_rings).area / area, 1.0)
-        planet = min(circle.intersection(self.visible_disk).area / area, 1.0 - ring)
-        return {"ring_fill_fraction": ring, "planet_fill_fraction": planet}
 
 
 # --------------------------------------------------------------------------- zone crossings

@@ -3,7 +3,7 @@
 ``evaluate_event`` computes the track, the region passes, the resonance zones crossed on each
 side with the cadence they need and whether they can be resolved, the resolution limits
 (Fresnel scale, stellar diameter), the signal to noise per resolution element, observability
-at the site and the cautions.  ``EventReport.to_json()`` gives the DESIGN.md section 8 fields.
+at the site and the cautions.  ``EventReport.to_json()`` gives the fields of docs/features_and_scoring.md, section 4.
 """
 
 from __future__ import annotations
@@ -109,7 +109,7 @@ class EventReport:
         return out
 
     def crossing_rows(self) -> list[dict]:
-        """Region crossings (DESIGN.md names) with the 1-sigma of their start and end times."""
+        """Region crossings (the names of docs/features_and_scoring.md) with the 1-sigma of their start and end times."""
         rows = pass_rows(self.track)
         sig = self.uncertainty.get("passes", [])
         for row, (a, b) in zip(rows, sig):
