@@ -36,6 +36,9 @@ from .geometry import Track
 DEFAULT_SAMPLES_PER_WAVELENGTH = 4.0
 NYQUIST_SAMPLES_PER_WAVELENGTH = 2.0
 DEFAULT_MIN_SNR = 3.0
+# features whose radius a chord locates even when it does not resolve their profile: a step
+# (edge) or a dip (narrow ring) is timed to about one resolution element over its SNR
+LOCATED = ("edge", "narrow ring")
 ELLIPSE_VERTICES = 1440  # chord error of the polygon: R (1 - cos(pi/1440)) = 0.14 km at 60,000 km
 
 
@@ -195,6 +198,7 @@ class ZoneCrossing:
     resolved_extent_km: float = 0.0  # how much of the zone is resolved
     resolved_fraction: float = 0.0  # resolved_extent / zone width (1 = all of it)
     snr_per_element: float = float("nan")  # SNR of the feature's signal per resolution element
+    location_sigma_km: float = float("nan")  # edges, narrow rings: radius located to element / SNR
     transmission: float = float("nan")  # slant transmission exp(-tau/|sin B*|) of the region
     contrast: float = float("nan")  # the feature's signal as a fraction of the unocculted star
     usable: bool | None = None  # observable at the site (None: not evaluated)
@@ -313,7 +317,8 @@ def zone_crossings(track: Track, features, *, cadence_s: float, fresnel_km: floa
     hidden = hidden_intervals(track) if hidden is None else hidden
     interp = track.interp
     features = list(features)
-    radii = np.array([[f.zone_inner_km, f.zone_outer_km, f.resonance_radius_km] for f in features]
+    # the third radius times the feature: an edge's ring edge, else the resonance radius
+    radii = np.array([[f.zone_inner_km, f.zone_outer_km, f.timing_radius_km] for f in features]
                      ).reshape(-1)
     crossing = crossing_times_many(track, radii) if radii.size else []
     # 1. which features each side crosses, and when
@@ -383,6 +388,12 @@ def zone_crossings(track: Track, features, *, cadence_s: float, fresnel_km: floa
         feats = [x[0] for x, ok in zip(found, scored) if ok]
         s_, t_, c_ = snr_function(feats, element[scored], vmax[scored], when[scored])
         snr[scored], transmission[scored], contrast[scored] = s_, t_, c_
+        # a narrow ring narrower than the resolution element fills only lam / element of it:
+        # its signal per element is diluted by that fraction (the noise is not), so an
+        # unresolved ring is measured by its equivalent depth
+        narrow = np.array([x[0].feature == "narrow ring" for x in found])
+        fill = np.where(narrow & (element > lam), lam / np.where(element > 0, element, 1.0), 1.0)
+        snr, contrast = snr * fill, contrast * fill
     # 3. one record per crossing
     out = []
     for i, (feat, side, _, _, _) in enumerate(found):
@@ -432,6 +443,8 @@ def zone_crossings(track: Track, features, *, cadence_s: float, fresnel_km: floa
             reasons=reasons + (["behind the planet"] if behind else []),
             partial=not whole, snr_per_element=float(snr[i]),
             transmission=float(transmission[i]), contrast=float(contrast[i]),
+            location_sigma_km=(float(element[i] / snr[i]) if feat.feature in LOCATED
+                               and np.isfinite(snr[i]) and snr[i] > 0 else float("nan")),
             resolved_extent_km=0.0 if behind else extent,
             resolved_fraction=0.0 if behind else fraction,
         ))

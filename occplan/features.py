@@ -8,7 +8,12 @@ output of :func:`occplan.resonances.find_resonances` into:
 - **edges**: a first-order Lindblad resonance within ``edge_distance_km`` of a segment edge
   (ILR at an outer edge, OLR at an inner edge, or inside a narrow ring: a forced mode),
   with a torque of at least ``min_edge_torque_dyn_cm``, holds that edge and forces an
-  m-lobed distortion of it, whatever the assumed viscosity;
+  m-lobed distortion of it, whatever the assumed viscosity -- unless the match is likely by
+  chance: the m:(m-+1) terms of one satellite form a comb with spacing
+  S = (2/3) r / (m (m -+ 1)), so an edge placed at random lies within d of one of them with
+  probability 2 d / S; a match with 2 d / S above ``max_edge_chance`` is not a holder
+  (Pan 31:30, 10 km from the Keeler gap's outer edge in a comb 98 km apart, is not listed;
+  Galatea 42:43, 0.3 km from the Adams ring in a comb 23 km apart, is);
 - **narrow rings**: a ring narrower than ``narrow_ring_max_width_km`` is one feature, with
   the resonances that hold its edges as members;
 - **corotation** features where the libration zone is at least ``corotation_min_width_km``
@@ -68,7 +73,7 @@ KM_TO_CM = 1e5
 FEATURE_KINDS = ("density wave", "bending wave", "edge", "narrow ring", "corotation",
                  "overlap region")
 SETTING_KEYS = ("min_amplitude", "narrow_ring_max_width_km", "edge_distance_km",
-                "min_edge_torque_dyn_cm",
+                "max_edge_chance", "min_edge_torque_dyn_cm",
                 "edge_width_km", "corotation_min_width_km", "min_optical_depth",
                 "overlap_min_members")
 
@@ -83,6 +88,7 @@ class FeatureSettings:
     min_amplitude: float
     narrow_ring_max_width_km: float
     edge_distance_km: float
+    max_edge_chance: float
     min_edge_torque_dyn_cm: float
     edge_width_km: float
     corotation_min_width_km: float
@@ -202,10 +208,19 @@ class Feature:
     surface_density_g_cm2: float
     terms: tuple = ()
     note: str = ""
+    edge_radius_km: float = float("nan")  # edges: the ring edge the resonance holds
 
     @property
     def edge(self) -> bool:
         return self.feature == "edge"
+
+    @property
+    def timing_radius_km(self) -> float:
+        """The radius whose crossing times the feature: an edge's ring edge (what the light
+        curve shows), otherwise the resonance radius (a narrow ring: its mean semi-major axis)."""
+        if self.feature == "edge" and math.isfinite(self.edge_radius_km):
+            return float(self.edge_radius_km)
+        return float(self.resonance_radius_km)
 
     @property
     def width_km(self) -> float:
@@ -217,7 +232,7 @@ class Feature:
             "resonance_radius_km", "zone_inner_km", "zone_outer_km", "propagation", "amplitude",
             "weight", "torque_dyn_cm", "first_wavelength_km", "damping_length_km",
             "shortest_wavelength_km", "scale_km", "region", "optical_depth",
-            "surface_density_g_cm2", "note")}
+            "surface_density_g_cm2", "edge_radius_km", "note")}
         row["terms"] = "; ".join(self.terms)
         return row
 
@@ -362,21 +377,26 @@ def _edge_candidates(resonances, segs, settings, group):
         if res.k != 0 or res.p != 0 or res.kind not in ("ILR", "OLR"):
             continue
         m, r = res.m, res.resonance_radius_km
-        # a resonance in a dense comb (neighbours closer than the tolerance) matches an edge
-        # by chance: the spacing of m:(m-1) terms is about (2/3) r / (m (m -+ 1))
+        # the m:(m-+1) terms of one satellite form a comb: an edge lies within d of one of
+        # them by chance with probability 2 d / spacing (module docstring)
         spacing = (np.inf if m == 1 else (2.0 / 3.0) * r / (m * (m - 1))) if res.kind == "ILR" \
             else (2.0 / 3.0) * r / (m * (m + 1))
-        if spacing <= d_max:
-            continue
         best = None
         for s in segs:
             if res.torque_per_sigma * s.surface_density_g_cm2 < settings.min_edge_torque_dyn_cm:
                 continue
-            options = [(s.outer_km, "outer")] if res.kind == "ILR" else [(s.inner_km, "inner")]
-            if s.narrow and s.inner_km <= r <= s.outer_km:  # a forced mode inside a narrow ring
-                options.append((r, "inner" if r - s.inner_km < s.outer_km - r else "outer"))
-            for edge, which in options:
+            # (edge radius, which, distance that decides the chance of the match)
+            options = [(s.outer_km, "outer", None)] if res.kind == "ILR" else \
+                [(s.inner_km, "inner", None)]
+            if s.narrow and s.inner_km <= r <= s.outer_km:  # a forced mode inside a narrow ring:
+                # the whole ring responds, so the match is judged by the distance to its
+                # mean radius (Galatea 42:43 sits 0.3 km from the Adams ring's)
+                options.append((r, "inner" if r - s.inner_km < s.outer_km - r else "outer",
+                                abs(r - 0.5 * (s.inner_km + s.outer_km))))
+            for edge, which, d_chance in options:
                 d = abs(r - edge)
+                if 2.0 * (d if d_chance is None else d_chance) / spacing > settings.max_edge_chance:
+                    continue  # as likely a chance alignment as a holder
                 if d <= d_max and (best is None or d < best[0]):
                     best = (d, s, edge, which)
         if best is not None:
@@ -532,8 +552,9 @@ def _merge(key, items, group, settings) -> Feature:
                        zone_inner_km=lo - pad, zone_outer_km=hi + pad, propagation="none",
                        amplitude=1.0, weight=1.0, first_wavelength_km=nan, damping_length_km=nan,
                        shortest_wavelength_km=nan, scale_km=settings.edge_width_km,
+                       edge_radius_km=float(edge_r),
                        note=(f"holds {seg.edge_name(which)} at {edge_r:,.1f} km "
-                             f"({abs(edge_r - principal.resonance_radius_km):.0f} km away): an "
+                             f"({abs(edge_r - principal.resonance_radius_km):.1f} km away): an "
                              f"m = {principal.m} forced distortion"), **common)
     if kind == "cr":
         lo = min(t.zone_inner_km for t in terms)
@@ -542,8 +563,9 @@ def _merge(key, items, group, settings) -> Feature:
                        zone_inner_km=lo, zone_outer_km=hi, propagation="none", amplitude=nan,
                        weight=0.0, first_wavelength_km=nan, damping_length_km=nan,
                        shortest_wavelength_km=nan, scale_km=hi - lo,
-                       note="corotation resonance: libration zone (arcs, confined material); "
-                            "its profile is not predicted by linear theory, listed but not scored",
+                       note="corotation resonance: a libration zone that can confine arcs or "
+                            "clumps; linear theory predicts no radial profile for it: listed, "
+                            "not scored",
                        **common)
     amps = np.array([it[3] for it in items])
     # amplitudes add as the square root of the summed torques (flux ~ amplitude^2)

@@ -60,6 +60,7 @@ WEIGHT_KEYS = {
     "usable": {"usable", "unusable"},
     "sides": {"ingress", "egress"},
     "diversity": {"second_crossing"},
+    "location": {"credit", "reference_km"},
 }
 EVAL_PAD_S = 600.0  # the evaluation window reaches 10 min beyond the first and last ring crossing
 
@@ -124,8 +125,10 @@ def load_weights(path: str | Path | None = None) -> Weights:
                 raise DataFileError(f"weight {table}.{key} = {value!r} must be a number >= 0")
     if values["snr"]["reference"] <= 0:
         raise DataFileError("weight snr.reference must be > 0")
-    if values["snr"]["unknown"] > 1 or values["diversity"]["second_crossing"] > 1:
-        raise DataFileError("weights snr.unknown and diversity.second_crossing must be <= 1")
+    if values["snr"]["unknown"] > 1 or values["diversity"]["second_crossing"] > 1 \
+            or values["location"]["credit"] > 1:
+        raise DataFileError("weights snr.unknown, diversity.second_crossing and location.credit "
+                            "must be <= 1")
     return Weights(values=values, sources=sources, path=where or default_weights_path())
 
 
@@ -146,6 +149,8 @@ def zone_record(z) -> dict:
         "feature_scale_km": float(z.feature_scale_km),
         "achievable_resolution_km": float(z.achievable_resolution_km),
         "resolved_fraction": float(z.resolved_fraction),
+        "location_sigma_km": float(z.location_sigma_km),
+        "partial": bool(z.partial),
         "ring_longitude_deg": float(z.ring_longitude_deg),
         "usable": z.usable,
     }
@@ -165,11 +170,14 @@ def zone_factors(rec: dict, weights: Weights) -> dict:
     weight = _number(rec, "weight")
     weight = 0.0 if not np.isfinite(weight) else min(max(weight, 0.0), 1.0)
     kind = weights.kind(str(rec.get("feature", "")))
+    located = 0.0
     if rec.get("behind_planet"):
         resolved = 0.0
     else:
         frac = _number(rec, "resolved_fraction")
         resolved = min(max(frac, 0.0), 1.0) if np.isfinite(frac) else 0.0
+        located = location_factor(rec, weights)
+        resolved = max(resolved, located)
     snr = _number(rec, "snr_per_element")
     ref = weights["snr.reference"]
     if np.isfinite(snr) and snr >= 0:
@@ -184,9 +192,29 @@ def zone_factors(rec: dict, weights: Weights) -> dict:
     side = weights["sides.ingress"] if rec.get("side") == "ingress" else weights["sides.egress"]
     value_if_usable = side * weight * kind * resolved * q_snr
     return {"weight": weight, "kind_factor": kind, "resolved_factor": resolved,
+            "location_factor": located,
             "snr_factor": q_snr, "usable_factor": usable_factor, "side_weight": side,
             "value_if_observable": value_if_usable,
             "value": 0.0 if usable is None else value_if_usable * usable_factor}
+
+
+LOCATED_FEATURES = ("edge", "narrow ring")
+
+
+def location_factor(rec: dict, weights: Weights) -> float:
+    """Credit of an edge or a narrow ring whose profile is not resolved but whose radius the
+    chord locates: credit / (1 + (sigma_r / reference)^2), sigma_r = element / SNR
+    (``location_sigma_km``; one resolution element when the SNR is unknown).  0 for other
+    features, for a crossing that covers only part of the feature, or behind the planet."""
+    if rec.get("feature") not in LOCATED_FEATURES or rec.get("partial") or rec.get("behind_planet"):
+        return 0.0
+    sigma = _number(rec, "location_sigma_km")
+    if not (np.isfinite(sigma) and sigma >= 0):
+        sigma = _number(rec, "achievable_resolution_km")
+    if not (np.isfinite(sigma) and sigma >= 0):
+        return 0.0
+    ref = weights["location.reference_km"]
+    return weights["location.credit"] / (1.0 + (sigma / ref) ** 2) if ref > 0 else 0.0
 
 
 def _feature_value(crossings: list[tuple[float, float]], diversity: float) -> float:

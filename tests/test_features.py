@@ -112,6 +112,27 @@ def test_saturn_resonance_held_edges(saturn_features, edge_name, region_edge_km,
     assert f.feature == "edge" and f.weight == 1.0, source
     assert abs(f.resonance_radius_km - region_edge_km) < 30.0, source
     assert f.zone_inner_km <= region_edge_km <= f.zone_outer_km, source
+    # the light curve shows the edge, not the resonance: the feature is timed at the edge
+    assert f.edge_radius_km == pytest.approx(region_edge_km, abs=0.1), source
+    assert f.timing_radius_km == f.edge_radius_km
+
+
+def test_chance_alignments_are_not_holders(saturn_features):
+    """Pan 31:30 lies 10 km from the Keeler gap's outer edge in a comb of Pan terms 98 km
+    apart (chance 2 d / S = 0.20) and Pandora 18:17 28 km from its inner edge (0.19): neither
+    is a published holder of those edges (Tajeddine et al. 2017 find the Keeler inner edge
+    held by Prometheus 32:31, from memory), and neither is listed as an edge."""
+    names = {f.name for f in saturn_features if f.feature == "edge"}
+    assert "Pan 31:30 edge" not in names and "Pandora 18:17 edge" not in names
+    assert "Prometheus 32:31 edge" in names
+
+
+def test_galatea_holds_the_adams_ring():
+    """The Adams ring's 42-lobed distortion is forced by Galatea's 42:43 outer Lindblad
+    resonance (Porco 1991, Science 253, 995; 43:42 in occplan's faster:slower labels), a
+    term in a comb 23 km apart that the ring's mean radius matches within 2 km."""
+    adams = _named(body_features("neptune"), "Adams ring")
+    assert any(t.startswith("Galatea 43:42 OLR") for t in adams.terms), adams.terms
 
 
 @pytest.mark.parametrize("ring, held_by, source", [

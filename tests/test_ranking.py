@@ -57,8 +57,10 @@ def test_factor_arithmetic():
     w = load_weights()
     f = zone_factors(record(weight=0.3, resolved_fraction=0.5, snr_per_element=5.0), w)
     assert f["value"] == pytest.approx(0.3 * 0.5 * 0.5, abs=1e-12)
-    # no credit floor: an unresolved feature earns nothing, whatever its SNR
-    assert zone_factors(record(resolved_fraction=0.0, resolvable=False), w)["value"] == 0.0
+    # no credit floor: an unresolved wave earns nothing, whatever its SNR
+    wave = dict(feature="density wave", name="Mimas 5:3 density wave", resolved_fraction=0.0,
+                resolvable=False)
+    assert zone_factors(record(**wave), w)["value"] == 0.0
     assert zone_factors(record(behind_planet=True), w)["value"] == 0.0
     assert zone_factors(record(usable=False), w)["value"] == 0.0
     # a corotation zone (weight 0 by kind) never scores
@@ -66,6 +68,35 @@ def test_factor_arithmetic():
     # unknown SNR counts as a marginal detection, never as a good one
     unknown = zone_factors(record(snr_per_element=float("nan")), w)["snr_factor"]
     assert unknown == w["snr.unknown"] < zone_factors(record(snr_per_element=5.0), w)["snr_factor"]
+
+
+def test_unresolved_edges_and_narrow_rings_earn_a_location_credit():
+    """An edge or narrow ring that the chord does not resolve is still located to
+    sigma_r = element / SNR: credit / (1 + (sigma_r / reference)^2) (occplan.ranking,
+    location_factor; the formula is this module's design choice, checked by hand here)."""
+    w = load_weights()
+    credit, ref = w["location.credit"], w["location.reference_km"]
+    unresolved = dict(resolved_fraction=0.0, resolvable=False, snr_per_element=10.0)
+    for sigma in (0.1, 1.0, 4.0):
+        f = zone_factors(record(location_sigma_km=sigma, **unresolved), w)
+        assert f["resolved_factor"] == pytest.approx(credit / (1 + (sigma / ref) ** 2), rel=1e-12)
+        assert f["value"] == pytest.approx(f["resolved_factor"] * 100 / 125, rel=1e-12)
+    ring = zone_factors(record(feature="narrow ring", location_sigma_km=0.5, **unresolved), w)
+    assert ring["resolved_factor"] == pytest.approx(credit / 1.25, rel=1e-12)
+    # a better location (brighter star: smaller sigma) never scores lower
+    vals = [zone_factors(record(location_sigma_km=s_, **unresolved), w)["value"]
+            for s_ in (5.0, 2.0, 1.0, 0.3)]
+    assert vals == sorted(vals) and vals[0] < vals[-1]
+    # a resolved edge keeps its full credit; a partial crossing or one behind the planet
+    # locates nothing
+    assert zone_factors(record(location_sigma_km=0.1), w)["resolved_factor"] == 1.0
+    assert zone_factors(record(location_sigma_km=0.1, partial=True, **unresolved), w)["value"] == 0.0
+    assert zone_factors(record(location_sigma_km=0.1, behind_planet=True, **unresolved),
+                        w)["value"] == 0.0
+    # without an SNR the edge counts as located to one resolution element
+    f = zone_factors(record(snr_per_element=float("nan"), resolved_fraction=0.0,
+                            achievable_resolution_km=2.0), w)
+    assert f["resolved_factor"] == pytest.approx(credit / 5.0, rel=1e-12)
 
 
 def test_same_longitude_twice_saturates():
