@@ -283,6 +283,18 @@ def _observed_fraction(feat, extent_km: float, r_lo: float, r_hi: float) -> tupl
     return min(overlap / width, 1.0), whole
 
 
+def _modelled_edge(region, edge_radius_km: float):
+    """'inner' or 'outer' when that edge of ``region`` (mean radius ``edge_radius_km``) has an
+    orbit model, else None."""
+    orbit = getattr(region, "orbit", None)
+    if orbit is None or not np.isfinite(edge_radius_km):
+        return None
+    which = "inner" if abs(edge_radius_km - region.inner_km) < abs(edge_radius_km - region.outer_km) \
+        else "outer"
+    o = orbit.edge_orbit(which)
+    return which if (o.e > 0 or o.modes or o.inclination_deg) else None
+
+
 def zone_crossings(track: Track, features, *, cadence_s: float, fresnel_km: float,
                    stellar_diameter_km: float | None,
                    samples_per_wavelength: float = DEFAULT_SAMPLES_PER_WAVELENGTH,
@@ -326,6 +338,7 @@ def zone_crossings(track: Track, features, *, cadence_s: float, fresnel_km: floa
     # narrow rings with an orbit model: their edges' crossings (occplan.ring_orbits), not
     # the circular envelope
     orbit_rings = {reg.name for reg in track.body.rings if getattr(reg, "orbit", None) is not None}
+    regions = {reg.name: reg for reg in track.body.rings}
     for side, a, b in sides(track):
         r_side = interp.radius(np.array([a, b]))
         for k, feat in enumerate(features):
@@ -335,6 +348,19 @@ def zone_crossings(track: Track, features, *, cadence_s: float, fresnel_km: floa
                     found.append((feat, side, ps[0].start_s, ps[0].end_s,
                                   0.5 * (ps[0].start_s + ps[0].end_s)))
                 continue
+            if feat.feature == "edge" and feat.region in orbit_rings:
+                # an eccentric edge (the B ring's, held by Mimas 2:1): timed at the chord's
+                # solved crossing of the edge itself, its zone carried along with it
+                edge = _modelled_edge(regions[feat.region], feat.edge_radius_km)
+                hits = [c for c in track.crossings if c.region == feat.region
+                        and c.edge == edge and c.side == side]
+                if edge is not None:
+                    if hits:
+                        t = hits[0].tdb_s
+                        v = max(abs(hits[0].radial_velocity_km_s), 1e-9)
+                        half = 0.5 * (feat.zone_outer_km - feat.zone_inner_km) / v
+                        found.append((feat, side, max(t - half, a), min(t + half, b), t))
+                    continue
             win = _radius_window(track, a, b, feat.zone_inner_km, feat.zone_outer_km,
                                  crossing[3 * k], crossing[3 * k + 1], r_side)
             if win is None or win[1] - win[0] < 1e-3:

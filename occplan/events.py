@@ -350,11 +350,26 @@ def _uncertainties(track, star, zones, tel, star_error_mas, planet_error_km, pol
         def sig(t, value):
             return None if (abs(t - t_ca) < 1e-3 or t <= t0 or t >= t1) else float(value)
 
+        # an eccentric ring's model adds its own radial uncertainty at each edge
+        a = [math.hypot(x, un.ring_model_time_sigma_s(track, p.region, p.side, p.start_s, "start"))
+             for p, x in zip(passes, a)]
+        b = [math.hypot(y, un.ring_model_time_sigma_s(track, p.region, p.side, p.end_s, "end"))
+             for p, y in zip(passes, b)]
         out["passes"] = [(sig(p.start_s, x), sig(p.end_s, y)) for p, x, y in zip(passes, a, b)]
     timed = [z for z in zones if np.isfinite(z.time_s)]
     if timed:
         for z, sig in zip(timed, un.crossing_time_sigma_s(track, budget, [z.time_s for z in timed])):
-            z.time_sigma_s = float(sig)
+            model = 0.0
+            if z.feature.feature == "narrow ring":
+                model = un.ring_model_time_sigma_s(track, z.feature.region, z.side, z.time_s, "mid")
+            elif z.feature.feature == "edge":
+                from .coverage import _modelled_edge
+
+                reg = next((r for r in track.body.rings if r.name == z.feature.region), None)
+                which = _modelled_edge(reg, z.feature.edge_radius_km) if reg is not None else None
+                if which:
+                    model = un.ring_model_time_sigma_s(track, reg.name, z.side, z.time_s, which)
+            z.time_sigma_s = float(math.hypot(sig, model))
     # grazing chords: the chance of reaching each boundary within 3 sigma of closest approach
     r_ca, s_ca = track.closest_approach_radius_km, ca["radius_km"]
     bounds = {(r.name, "inner", r.inner_km) for r in track.body.rings} | \

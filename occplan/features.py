@@ -448,6 +448,8 @@ def derive_features(body, resonances, settings: FeatureSettings | None = None) -
             continue
         if seg is None or not seg.surface_density_g_cm2 > 0:
             continue
+        if seg.narrow:
+            continue  # a narrow ring is one feature: only its edge resonances are members
         sig = res.surface_density_g_cm2 if np.isfinite(res.surface_density_g_cm2) \
             else seg.surface_density_g_cm2
         if res.wave in ("density", "bending"):

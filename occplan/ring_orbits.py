@@ -1,29 +1,45 @@
-"""Kinematic models of eccentric rings: where an edge is at a given longitude and time.
+"""Kinematic models of eccentric and inclined rings: where an edge is at a longitude and time.
 
 A body file may give a ring (or ringlet) an ``[rings.orbit]`` table.  Each edge is a
-precessing Keplerian ellipse in the ring plane (Murray & Dermott 1999, ch. 2):
+precessing Keplerian ellipse in the ring plane with normal modes (Murray & Dermott 1999,
+ch. 2; the mode form of French et al. 1991 and Nicholson et al. 2014):
 
-    R(lambda, t) = a (1 - e^2) / (1 + e cos(lambda - varpi(t))) - sum_m A_m cos(m (lambda - phi_m - Omega_m (t - t0)))
+    R(lambda, t) = a (1 - e^2) / (1 + e cos(lambda - varpi(t)))
+                   - sum_m A_m cos(m (lambda - phi_m - Omega_m (t - t0)))
     varpi(t)     = varpi_0 + varpidot (t - t0)
+    z(lambda, t) = a sin(i) sin(lambda - Omega(t)),   Omega(t) = Omega_0 + Omegadot (t - t0)
 
 with lambda the inertial ring longitude of occplan (from the ascending node of the ring
-plane on the ICRF equator), varpidot the apsidal precession rate (given, or computed from
-the planet's zonal harmonics at a: :func:`occplan.dynamics.apsidal_rate_rad_s`), and
-optional normal modes m with radial amplitude A_m, the longitude phi_m of a radius minimum at
-the epoch and pattern speed Omega_m.  The inner and outer edges may have their own a and e
-(the epsilon ring of Uranus is 20 km wide at periapse and 96 km at apoapse: its edges' ae
-differ by 76 km); by default both share the ring's e.
+plane on the ICRF equator), varpidot and Omegadot the apsidal and nodal rates (given, or
+computed from the planet's zonal harmonics at a: :mod:`occplan.dynamics`), and normal modes
+m (m >= 1, or m < 0 for the outer-Lindblad-type modes) with radial amplitude A_m, the
+longitude phi_m of a radius minimum at the epoch and pattern speed Omega_m.
+
+The ring-level keys give both edges; ``[rings.orbit.inner]`` and ``[rings.orbit.outer]`` may
+override any of a_km, e, periapse_deg, periapse_rate_deg_day, inclination_deg, node_deg,
+node_rate_deg_day, modes and rms_km per edge (each edge of Saturn's ringlets has its own
+fitted orbit; the Uranian epsilon ring is 20 km wide at periapse and 96 km at apoapse).
+
+``longitude_reference = "B1950"`` marks longitudes measured from the ascending node of the
+ring plane on the B1950 (FK4) equator, as the Uranian ring solutions of French et al. 1988
+and 1991 are; they are turned to occplan's ICRF node once per body
+(:func:`reference_offset_rad`).  ``phase_sigma_deg`` is the 1-sigma of the periapse and node
+longitudes at the event (an extrapolated precession), ``rms_km`` the fit's radial scatter;
+:func:`edge_radius_sigma_km` turns both into a radial uncertainty.
 
 :func:`apply_ring_orbits` replaces the circular-envelope crossings of such a ring on a track
-by the times the chord meets the edges themselves (Brent's method on r(t) - R(lambda(t), t)
-inside the envelope crossing).  Vertical offsets of inclined rings are not modelled (a ring
-inclined by i moves by up to a i out of the plane: a note says so when i is given).
+by the times the chord meets the edges themselves: on each side, Brent's method on
+r'(t) - R(lambda'(t), t) inside the envelope crossing, where r' and lambda' are the radius
+and longitude at which the ray meets the inclined edge (the ring-plane intercept shifted by
+z / sin B* along the ray: the in-plane shift is z (s_x, s_y) / s_z, s the unit vector toward
+the star in the ring frame).
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, replace
+from functools import lru_cache
 
 import numpy as np
 from scipy.optimize import brentq
@@ -31,10 +47,14 @@ from scipy.optimize import brentq
 from .errors import DataFileError
 
 SECONDS_PER_DAY = 86400.0
+EDGE_KEYS = {"a_km", "e", "periapse_deg", "periapse_rate_deg_day", "inclination_deg",
+             "node_deg", "node_rate_deg_day", "modes", "rms_km"}
 ORBIT_KEYS = {"epoch_jd_tdb", "a_km", "e", "periapse_deg", "periapse_rate_deg_day",
               "inclination_deg", "node_deg", "node_rate_deg_day", "inner_a_km", "inner_e",
-              "outer_a_km", "outer_e", "modes", "source"}
+              "outer_a_km", "outer_e", "modes", "source", "longitude_reference",
+              "phase_sigma_deg", "rms_km", "inner", "outer"}
 MODE_KEYS = {"m", "amplitude_km", "phase_deg", "pattern_speed_deg_day", "source"}
+REFERENCES = ("ICRF", "B1950")
 
 
 @dataclass(frozen=True)
@@ -46,10 +66,9 @@ class Mode:
 
 
 @dataclass(frozen=True)
-class RingOrbit:
-    """A ring's edges as precessing ellipses (module docstring)."""
+class EdgeOrbit:
+    """One edge: a precessing, inclined ellipse with normal modes (module docstring)."""
 
-    epoch_jd_tdb: float
     a_km: float
     e: float
     periapse_deg: float
@@ -57,18 +76,62 @@ class RingOrbit:
     inclination_deg: float = 0.0
     node_deg: float = 0.0
     node_rate_deg_day: float | None = None
-    inner_a_km: float | None = None
-    inner_e: float | None = None
-    outer_a_km: float | None = None
-    outer_e: float | None = None
-    modes: tuple = field(default_factory=tuple)
+    modes: tuple = ()
+    rms_km: float = 0.0
+
+
+@dataclass(frozen=True)
+class RingOrbit:
+    """A ring's two edges (module docstring)."""
+
+    epoch_jd_tdb: float
+    inner: EdgeOrbit
+    outer: EdgeOrbit
+    longitude_reference: str = "ICRF"
+    phase_sigma_deg: float = 0.0
     source: str = ""
+
+    def edge_orbit(self, which: str) -> EdgeOrbit:
+        return self.inner if which == "inner" else self.outer
 
     def edge(self, which: str) -> tuple[float, float]:
         """(a, e) of the inner or outer edge."""
-        if which == "inner":
-            return (self.inner_a_km or self.a_km), (self.e if self.inner_e is None else self.inner_e)
-        return (self.outer_a_km or self.a_km), (self.e if self.outer_e is None else self.outer_e)
+        o = self.edge_orbit(which)
+        return o.a_km, o.e
+
+    @property
+    def a_km(self) -> float:
+        return 0.5 * (self.inner.a_km + self.outer.a_km)
+
+    @property
+    def inclination_deg(self) -> float:
+        return max(self.inner.inclination_deg, self.outer.inclination_deg)
+
+
+def _modes(items, where: str) -> tuple:
+    if not isinstance(items, list):
+        raise DataFileError(f"{where}: orbit modes must be an array of tables")
+    out = []
+    for k, mode in enumerate(items):
+        if not isinstance(mode, dict) or set(mode) - MODE_KEYS or \
+                not {"m", "amplitude_km", "phase_deg", "pattern_speed_deg_day"} <= set(mode):
+            raise DataFileError(f"{where}: orbit mode {k} needs m, amplitude_km, phase_deg and "
+                                "pattern_speed_deg_day (and an optional source)")
+        if int(mode["m"]) == 0:
+            raise DataFileError(f"{where}: orbit mode {k}: m = 0 (a breathing mode) is not "
+                                "supported; leave it out and count its amplitude in rms_km")
+        out.append(Mode(int(mode["m"]), float(mode["amplitude_km"]), float(mode["phase_deg"]),
+                        float(mode["pattern_speed_deg_day"])))
+    return tuple(out)
+
+
+def _num(table: dict, key: str, where: str, default=None):
+    v = table.get(key, default)
+    if v is None:
+        return None
+    if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
+        raise DataFileError(f"{where}: orbit {key} = {v!r} must be a finite number")
+    return float(v)
 
 
 def parse_orbit(table: dict, where: str) -> RingOrbit:
@@ -82,72 +145,198 @@ def parse_orbit(table: dict, where: str) -> RingOrbit:
     for key in ("epoch_jd_tdb", "a_km", "e", "periapse_deg"):
         if key not in table:
             raise DataFileError(f"{where}: orbit needs {key!r}")
-
-    def num(key, default=None):
-        v = table.get(key, default)
-        if v is None:
-            return None
-        if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
-            raise DataFileError(f"{where}: orbit {key} = {v!r} must be a finite number")
-        return float(v)
-
-    modes = []
-    for k, mode in enumerate(table.get("modes", [])):
-        if not isinstance(mode, dict) or set(mode) - MODE_KEYS or \
-                not {"m", "amplitude_km", "phase_deg", "pattern_speed_deg_day"} <= set(mode):
-            raise DataFileError(f"{where}: orbit mode {k} needs m, amplitude_km, phase_deg and "
-                                "pattern_speed_deg_day (and an optional source)")
-        modes.append(Mode(int(mode["m"]), float(mode["amplitude_km"]), float(mode["phase_deg"]),
-                          float(mode["pattern_speed_deg_day"])))
-    orbit = RingOrbit(
-        epoch_jd_tdb=num("epoch_jd_tdb"), a_km=num("a_km"), e=num("e"),
-        periapse_deg=num("periapse_deg"), periapse_rate_deg_day=num("periapse_rate_deg_day"),
-        inclination_deg=num("inclination_deg", 0.0), node_deg=num("node_deg", 0.0),
-        node_rate_deg_day=num("node_rate_deg_day"), inner_a_km=num("inner_a_km"),
-        inner_e=num("inner_e"), outer_a_km=num("outer_a_km"), outer_e=num("outer_e"),
-        modes=tuple(modes), source=str(table.get("source", "")))
+    ref = str(table.get("longitude_reference", "ICRF"))
+    if ref not in REFERENCES:
+        raise DataFileError(f"{where}: orbit longitude_reference {ref!r} must be one of "
+                            + ", ".join(REFERENCES))
+    base = {
+        "a_km": _num(table, "a_km", where), "e": _num(table, "e", where),
+        "periapse_deg": _num(table, "periapse_deg", where),
+        "periapse_rate_deg_day": _num(table, "periapse_rate_deg_day", where),
+        "inclination_deg": _num(table, "inclination_deg", where, 0.0),
+        "node_deg": _num(table, "node_deg", where, 0.0),
+        "node_rate_deg_day": _num(table, "node_rate_deg_day", where),
+        "modes": _modes(table.get("modes", []), where),
+        "rms_km": _num(table, "rms_km", where, 0.0),
+    }
+    edges = {}
     for which in ("inner", "outer"):
-        a, e = orbit.edge(which)
-        if not (a > 0 and 0 <= e < 1):
+        vals = dict(base)
+        # the older flat keys inner_a_km / inner_e (outer_...) still work
+        for key in ("a_km", "e"):
+            flat = _num(table, f"{which}_{key}", where)
+            if flat is not None:
+                vals[key] = flat
+        sub = table.get(which, {})
+        if not isinstance(sub, dict):
+            raise DataFileError(f"{where}: orbit {which!r} must be a table")
+        bad = set(sub) - EDGE_KEYS
+        if bad:
+            raise DataFileError(f"{where}: unknown key(s) {', '.join(sorted(bad))} in orbit "
+                                f"{which!r}; allowed: {', '.join(sorted(EDGE_KEYS))}")
+        for key in EDGE_KEYS - {"modes"}:
+            if key in sub:
+                vals[key] = _num(sub, key, f"{where} {which}")
+        if "modes" in sub:
+            vals["modes"] = _modes(sub["modes"], f"{where} {which}")
+        edges[which] = EdgeOrbit(**vals)
+        if not (vals["a_km"] > 0 and 0 <= vals["e"] < 1):
             raise DataFileError(f"{where}: orbit {which} edge needs a > 0 and 0 <= e < 1")
-    return orbit
+        if not (0 <= vals["inclination_deg"] < 90 and vals["rms_km"] >= 0):
+            raise DataFileError(f"{where}: orbit {which} edge needs 0 <= inclination < 90 deg "
+                                "and rms_km >= 0")
+    sigma = _num(table, "phase_sigma_deg", where, 0.0)
+    if sigma < 0:
+        raise DataFileError(f"{where}: orbit phase_sigma_deg must be >= 0")
+    return RingOrbit(epoch_jd_tdb=_num(table, "epoch_jd_tdb", where), inner=edges["inner"],
+                     outer=edges["outer"], longitude_reference=ref, phase_sigma_deg=sigma,
+                     source=str(table.get("source", "")))
 
 
-def periapse_rad(orbit: RingOrbit, body, t_tdb_s) -> np.ndarray:
-    """Longitude of periapse (rad) at TDB seconds past J2000."""
+# --------------------------------------------------------------------------- frames
+
+
+@lru_cache(maxsize=16)
+def _b1950_pole_icrf() -> tuple:
+    """The B1950 (FK4, no E-terms) equator's pole in ICRF coordinates (astropy's FK4 -> ICRS
+    transformation)."""
+    import astropy.units as u
+    from astropy.coordinates import ICRS, FK4NoETerms, SkyCoord
+
+    c = SkyCoord(0 * u.deg, 90 * u.deg, frame=FK4NoETerms(equinox="B1950", obstime="B1950"))
+    v = c.transform_to(ICRS()).cartesian.xyz.value
+    return tuple(float(x) for x in v / np.linalg.norm(v))
+
+
+def node_direction(pole, equator_pole=(0.0, 0.0, 1.0)) -> np.ndarray:
+    """Unit vector to the ascending node of the ring plane (pole ``pole``) on the equator whose
+    pole is ``equator_pole`` (ICRF components)."""
+    n = np.asarray(pole, dtype=float)
+    z = np.asarray(equator_pole, dtype=float)
+    v = np.cross(z, n)
+    return v / np.linalg.norm(v)
+
+
+def reference_offset_rad(orbit: RingOrbit, body) -> float:
+    """Angle (rad) to add to the orbit's longitudes to refer them to occplan's ICRF node:
+    the B1950 node's longitude measured from the ICRF node in the ring plane, prograde
+    (0 for ``longitude_reference = "ICRF"``)."""
+    if orbit.longitude_reference == "ICRF":
+        return 0.0
+    n = np.asarray(body.pole.unit_vector(orbit.epoch_jd_tdb), dtype=float).reshape(3)
+    node_icrf = node_direction(n)
+    node_b = node_direction(n, _b1950_pole_icrf())
+    perp = np.cross(n, node_icrf)
+    return float(math.atan2(float(node_b @ perp), float(node_b @ node_icrf)))
+
+
+# --------------------------------------------------------------------------- edges
+
+
+def _days(orbit: RingOrbit, t_tdb_s) -> np.ndarray:
     from .constants import J2000_JD_TDB
-    from .dynamics import apsidal_rate_rad_s
 
-    if orbit.periapse_rate_deg_day is not None:
-        rate = math.radians(orbit.periapse_rate_deg_day) / SECONDS_PER_DAY
-    else:
-        rate = float(apsidal_rate_rad_s(body, orbit.a_km))
-    dt = np.asarray(t_tdb_s, dtype=float) - (orbit.epoch_jd_tdb - J2000_JD_TDB) * SECONDS_PER_DAY
-    return math.radians(orbit.periapse_deg) + rate * dt
+    return np.asarray(t_tdb_s, dtype=float) / SECONDS_PER_DAY - (orbit.epoch_jd_tdb - J2000_JD_TDB)
+
+
+def _rate_deg_day(given, body, a_km, which: str) -> float:
+    if given is not None:
+        return float(given)
+    from .dynamics import apsidal_rate_rad_s, nodal_rate_rad_s
+
+    fn = apsidal_rate_rad_s if which == "apse" else nodal_rate_rad_s
+    return math.degrees(float(fn(body, a_km))) * SECONDS_PER_DAY
+
+
+def periapse_rad(orbit: RingOrbit, body, t_tdb_s, which: str = "outer") -> np.ndarray:
+    """Longitude of periapse of an edge (rad, occplan's ICRF node) at TDB seconds past J2000."""
+    o = orbit.edge_orbit(which)
+    rate = _rate_deg_day(o.periapse_rate_deg_day, body, o.a_km, "apse")
+    return (math.radians(o.periapse_deg) + reference_offset_rad(orbit, body)
+            + math.radians(rate) * _days(orbit, t_tdb_s))
+
+
+def node_rad(orbit: RingOrbit, body, t_tdb_s, which: str = "outer") -> np.ndarray:
+    """Longitude of the ascending node of an inclined edge on the ring plane (rad)."""
+    o = orbit.edge_orbit(which)
+    rate = _rate_deg_day(o.node_rate_deg_day, body, o.a_km, "node")
+    return (math.radians(o.node_deg) + reference_offset_rad(orbit, body)
+            + math.radians(rate) * _days(orbit, t_tdb_s))
 
 
 def edge_radius_km(orbit: RingOrbit, body, which: str, longitude_rad, t_tdb_s) -> np.ndarray:
     """Radius of the inner or outer edge at ring longitude and time (module docstring)."""
-    from .constants import J2000_JD_TDB
-
-    a, e = orbit.edge(which)
+    o = orbit.edge_orbit(which)
     lon = np.asarray(longitude_rad, dtype=float)
-    f = lon - periapse_rad(orbit, body, t_tdb_s)
-    r = a * (1.0 - e * e) / (1.0 + e * np.cos(f))
-    dt_day = np.asarray(t_tdb_s, dtype=float) / SECONDS_PER_DAY - (orbit.epoch_jd_tdb - J2000_JD_TDB)
-    for mode in orbit.modes:
-        arg = mode.m * (lon - math.radians(mode.phase_deg)
-                        - math.radians(mode.pattern_speed_deg_day) * dt_day)
-        r = r - mode.amplitude_km * np.cos(arg)
+    f = lon - periapse_rad(orbit, body, t_tdb_s, which)
+    r = o.a_km * (1.0 - o.e * o.e) / (1.0 + o.e * np.cos(f))
+    if o.modes:
+        dt_day = _days(orbit, t_tdb_s)
+        offset = reference_offset_rad(orbit, body)
+        for mode in o.modes:
+            arg = mode.m * (lon - offset - math.radians(mode.phase_deg)
+                            - math.radians(mode.pattern_speed_deg_day) * dt_day)
+            r = r - mode.amplitude_km * np.cos(arg)
     return r
+
+
+def edge_height_km(orbit: RingOrbit, body, which: str, longitude_rad, t_tdb_s) -> np.ndarray:
+    """Height of an inclined edge above the ring plane, a sin i sin(lambda - Omega), km."""
+    o = orbit.edge_orbit(which)
+    lon = np.asarray(longitude_rad, dtype=float)
+    if not o.inclination_deg:
+        return np.zeros_like(lon)
+    return o.a_km * math.sin(math.radians(o.inclination_deg)) * np.sin(
+        lon - node_rad(orbit, body, t_tdb_s, which))
+
+
+def edge_radius_sigma_km(orbit: RingOrbit, body, which: str, longitude_rad, t_tdb_s,
+                         cot_b: float = 0.0) -> float:
+    """1-sigma of an edge's radius at a longitude: the fit's rms, the periapse phase error
+    (a e |sin f| sigma_phase) and, for an inclined edge, the node phase error moving its
+    height (a sin i |cos(lambda - Omega)| sigma_phase, seen in the ring plane times cot B*)."""
+    o = orbit.edge_orbit(which)
+    s = math.radians(orbit.phase_sigma_deg)
+    lon = float(longitude_rad)
+    f = lon - float(periapse_rad(orbit, body, t_tdb_s, which))
+    radial = o.a_km * o.e * abs(math.sin(f)) * s
+    vertical = 0.0
+    if o.inclination_deg:
+        d = lon - float(node_rad(orbit, body, t_tdb_s, which))
+        vertical = o.a_km * math.sin(math.radians(o.inclination_deg)) * abs(math.cos(d)) * s * abs(cot_b)
+    return float(math.sqrt(o.rms_km ** 2 + radial ** 2 + vertical ** 2))
 
 
 def radius_span_km(orbit: RingOrbit) -> tuple[float, float]:
     """Smallest and largest radius either edge can reach (all modes at their extremes)."""
-    modes = sum(abs(m.amplitude_km) for m in orbit.modes)
-    lo = min(a * (1 - e) for a, e in (orbit.edge("inner"), orbit.edge("outer"))) - modes
-    hi = max(a * (1 + e) for a, e in (orbit.edge("inner"), orbit.edge("outer"))) + modes
+    lo, hi = np.inf, -np.inf
+    for o in (orbit.inner, orbit.outer):
+        modes = sum(abs(m.amplitude_km) for m in o.modes)
+        lo = min(lo, o.a_km * (1 - o.e) - modes)
+        hi = max(hi, o.a_km * (1 + o.e) + modes)
     return lo, hi
+
+
+def star_in_ring_frame(track) -> np.ndarray:
+    """Unit vector toward the star in occplan's ring frame (ICRF node, its perpendicular, the
+    pole) at the track's closest approach: (s_x, s_y, s_z)."""
+    from .constants import J2000_JD_TDB
+
+    star = track.star
+    ra, dec = math.radians(star.ra_deg), math.radians(star.dec_deg)
+    s = np.array([math.cos(dec) * math.cos(ra), math.cos(dec) * math.sin(ra), math.sin(dec)])
+    jd = J2000_JD_TDB + float(track.closest_approach_s) / SECONDS_PER_DAY
+    n = np.asarray(track.body.pole.unit_vector(jd), dtype=float).reshape(3)
+    node = node_direction(n)
+    perp = np.cross(n, node)
+    return np.array([s @ node, s @ perp, s @ n])
+
+
+# --------------------------------------------------------------------------- crossings
+
+
+def _regions_with_orbits(body):
+    return [reg for reg in body.rings if getattr(reg, "orbit", None) is not None]
 
 
 def apply_ring_orbits(track) -> list[str]:
@@ -155,7 +344,10 @@ def apply_ring_orbits(track) -> list[str]:
 
     On each side of the chord (ingress: r decreasing, egress: increasing) the edges are
     bracketed by the times the chord crosses the smallest and largest radius the ring can
-    reach; each edge's time is the root of r(t) - R(lambda(t), t) there (Brent).
+    reach (widened by the largest in-plane shift of an inclined edge); each edge's time is
+    the root of r'(t) - R(lambda'(t), t) there (Brent), r' the radius where the ray meets the
+    edge's own plane (module docstring).  A gap whose edge coincides with a modelled ring edge
+    (the Huygens gap's inner edge is the B ring's outer edge) takes the same crossing.
     Returns notes for the output metadata.
     """
     from .geometry import Crossing, RegionPass, crossing_times
@@ -165,23 +357,42 @@ def apply_ring_orbits(track) -> list[str]:
     interp = track.interp
     t0, t1, ca = float(track.tdb_s[0]), float(track.tdb_s[-1]), float(track.closest_approach_s)
     sides = [s for s in (("ingress", t0, ca), ("egress", ca, t1)) if s[2] > s[1]]
-    for reg in body.rings:
-        orbit = getattr(reg, "orbit", None)
-        if orbit is None or not np.isfinite(track.closest_approach_radius_km):
-            continue
-        if orbit.inclination_deg:
-            notes.append(f"{reg.name}: inclination {orbit.inclination_deg:g} deg not modelled "
-                         f"(vertical offsets up to {orbit.a_km * math.radians(orbit.inclination_deg):.1f} km)")
+    if not np.isfinite(track.closest_approach_radius_km):
+        return notes
+    s_ring = star_in_ring_frame(track)
+    shift_dir = s_ring[:2] / s_ring[2] if abs(s_ring[2]) > 1e-9 else np.zeros(2)
+    cot_b = float(np.hypot(*shift_dir))
+    gaps = list(getattr(body, "gaps", ()))
+    for reg in _regions_with_orbits(body):
+        orbit = reg.orbit
 
-        def miss(t, which):
+        def point(t, which, orbit=orbit):
+            """(radius, longitude) where the ray meets the edge's plane at time t."""
             u = interp.in_plane(np.array([t]))[0][:, 0]
             lon = math.atan2(u[1], u[0])
-            return float(np.hypot(u[0], u[1]) - edge_radius_km(orbit, body, which, lon, t))
+            for _ in range(2):  # the height depends on the longitude: two fixed-point steps
+                z = float(edge_height_km(orbit, body, which, lon, t))
+                v = u + z * shift_dir
+                lon = math.atan2(v[1], v[0])
+            z = float(edge_height_km(orbit, body, which, lon, t))
+            v = u + z * shift_dir
+            return float(np.hypot(v[0], v[1])), lon
+
+        def miss(t, which, orbit=orbit):
+            r, lon = point(t, which)
+            return r - float(edge_radius_km(orbit, body, which, lon, t))
 
         lo, hi = radius_span_km(orbit)
-        t_lo, t_hi = crossing_times(interp, np.array([lo - 1.0, hi + 1.0]), t0, t1)
+        lift = max(o.a_km * math.sin(math.radians(o.inclination_deg))
+                   for o in (orbit.inner, orbit.outer)) * cot_b
+        t_lo, t_hi = crossing_times(interp, np.array([max(lo - 1.0 - lift, 1.0), hi + 1.0 + lift]),
+                                    t0, t1)
         passes = [p for p in track.passes if p.region != reg.name]
         crossings = [c for c in track.crossings if c.region != reg.name]
+        # gap edges that are this ring's edges (same mean radius within 1 km)
+        twins = [(g.name, "inner" if abs(g.inner_km - orbit.edge(w)[0]) < 1.0 else "outer", w)
+                 for g in gaps for w in ("inner", "outer")
+                 if min(abs(g.inner_km - orbit.edge(w)[0]), abs(g.outer_km - orbit.edge(w)[0])) < 1.0]
         for side, a, b in sides:
             in_lo = [t for t in t_lo if a <= t <= b]
             in_hi = [t for t in t_hi if a <= t <= b]
@@ -206,13 +417,51 @@ def apply_ring_orbits(track) -> list[str]:
             passes.append(RegionPass(region=reg.name, side=side, start_s=float(start),
                                      end_s=float(end), clipped=clipped))
             for which, t_edge in times.items():
-                crossings.append(Crossing(
-                    boundary_km=float(interp.radius(np.array([t_edge]))[0]), region=reg.name,
+                crossing = Crossing(
+                    boundary_km=point(t_edge, which)[0], region=reg.name,
                     edge=which, tdb_s=float(t_edge), side=side,
                     radial_velocity_km_s=float(interp.radial_velocity(np.array([t_edge]))[0]),
-                    behind_planet=bool(interp.limb(np.array([t_edge]))[0] < 0)))
+                    behind_planet=bool(interp.limb(np.array([t_edge]))[0] < 0))
+                crossings.append(crossing)
+                for gap, gap_edge, w in twins:
+                    if w != which:
+                        continue
+                    crossings = [c for c in crossings if not (c.region == gap and c.edge == gap_edge
+                                                              and c.side == side)]
+                    crossings.append(Crossing(**{**crossing.__dict__, "region": gap,
+                                                 "edge": gap_edge}))
+        for gap, gap_edge, _ in twins:  # the gap's passes start or end at the moved edge
+            passes = _retime_gap_passes(passes, crossings, gap, gap_edge)
         track.passes = sorted(passes, key=lambda q: q.start_s)
         track.crossings = sorted(crossings, key=lambda c: c.tdb_s)
-        notes.append(f"{reg.name}: crossings solved against its eccentric edges "
-                     f"({orbit.source or 'body file orbit'})")
+        what = "eccentric" + (" and inclined" if orbit.inclination_deg else "")
+        notes.append(f"{reg.name}: crossings solved against its {what} edges (orbit of the "
+                     f"body file, epoch JD {orbit.epoch_jd_tdb:.1f} TDB, longitudes from the "
+                     f"{orbit.longitude_reference} node; its source says where it comes from)")
     return notes
+
+
+def _retime_gap_passes(passes, crossings, gap, gap_edge):
+    """Move the ends of a gap's passes that sit at its shared edge to that edge's new time."""
+    out = []
+    for p in passes:
+        if p.region != gap:
+            out.append(p)
+            continue
+        mine = [c for c in crossings if c.region == gap and c.edge == gap_edge and c.side == p.side]
+        if not mine:
+            out.append(p)
+            continue
+        t = mine[0].tdb_s
+        # the shared edge is the end nearer in time to the new crossing
+        if abs(p.start_s - t) <= abs(p.end_s - t):
+            p = replace(p, start_s=min(t, p.end_s))
+        else:
+            p = replace(p, end_s=max(t, p.start_s))
+        out.append(p)
+    return out
+
+
+__all__ = ["EdgeOrbit", "Mode", "RingOrbit", "apply_ring_orbits", "edge_height_km",
+           "edge_radius_km", "edge_radius_sigma_km", "node_rad", "parse_orbit", "periapse_rad",
+           "radius_span_km", "reference_offset_rad", "star_in_ring_frame"]

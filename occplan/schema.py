@@ -261,6 +261,18 @@ _PER_BAND = one_of(number(0.0), table({b: number(0.0) for b in BANDS} | {"source
                                       what="a table of bands V R I J H K"),
                    expected="a number >= 0 or a table of bands V R I J H K with numbers >= 0")
 
+# eccentric ring edges (occplan.ring_orbits, which checks the values again)
+_ORBIT_MODES = array(table({
+    "m": integer(), "amplitude_km": _ANY_NUMBER, "phase_deg": _ANY_NUMBER,
+    "pattern_speed_deg_day": _ANY_NUMBER, "source": _TEXT,
+}, required=("m", "amplitude_km", "phase_deg", "pattern_speed_deg_day")))
+_EDGE_ORBIT = table({
+    "a_km": _RADIUS_KM, "e": number(0.0, 1.0, hi_open=True), "periapse_deg": _ANY_NUMBER,
+    "periapse_rate_deg_day": _ANY_NUMBER, "inclination_deg": number(0.0, 180.0),
+    "node_deg": _ANY_NUMBER, "node_rate_deg_day": _ANY_NUMBER, "modes": _ORBIT_MODES,
+    "rms_km": _NONNEGATIVE,
+})
+
 BODY_SCHEMA = table({
     "name": string(nonempty=True),
     "naif_id": integer(),
@@ -299,10 +311,9 @@ BODY_SCHEMA = table({
             "node_rate_deg_day": _ANY_NUMBER, "inner_a_km": _RADIUS_KM,
             "inner_e": number(0.0, 1.0, hi_open=True), "outer_a_km": _RADIUS_KM,
             "outer_e": number(0.0, 1.0, hi_open=True), "source": _TEXT,
-            "modes": array(table({
-                "m": integer(), "amplitude_km": _ANY_NUMBER, "phase_deg": _ANY_NUMBER,
-                "pattern_speed_deg_day": _ANY_NUMBER, "source": _TEXT,
-            }, required=("m", "amplitude_km", "phase_deg", "pattern_speed_deg_day"))),
+            "longitude_reference": string(nonempty=True), "phase_sigma_deg": _NONNEGATIVE,
+            "rms_km": _NONNEGATIVE, "modes": _ORBIT_MODES,
+            "inner": _EDGE_ORBIT, "outer": _EDGE_ORBIT,
         }, required=("epoch_jd_tdb", "a_km", "e", "periapse_deg")),
     }, required=("name", "inner_km", "outer_km", "surface_density_g_cm2")), min_items=1),
     "gaps": array(table({

@@ -205,6 +205,44 @@ def crossing_time_sigma_s(track, budget: ErrorBudget, when_s) -> np.ndarray:
                         np.inf)
 
 
+def ring_model_time_sigma_s(track, region: str, side: str, when_s: float, which: str) -> float:
+    """1-sigma (s) that a narrow or eccentric ring's own model adds to a crossing time.
+
+    A ring with an orbit model (:mod:`occplan.ring_orbits`): the edge's radial uncertainty
+    at the crossing's longitude (fit rms, periapse and node phase errors), over |dr/dt|;
+    ``which`` is 'start' or 'end' of the pass (the outer edge starts an ingress pass), 'mid'
+    (both edges in quadrature over 2) or the edge itself ('inner', 'outer').  A narrow ring crossed within a circular radial
+    envelope wider than itself (no orbit model): the ring lies anywhere in the envelope, a
+    uniform spread of (envelope - width) / sqrt(12) in radius.  0 for other regions."""
+    reg = next((r for r in track.body.rings if r.name == region), None)
+    if reg is None or not np.isfinite(when_s):
+        return 0.0
+    speed = abs(float(track.interp.radial_velocity(np.array([when_s]))[0]))
+    if not speed > 0:
+        return 0.0
+    orbit = getattr(reg, "orbit", None)
+    if orbit is None:
+        lo, hi = getattr(reg, "edge_a_km", (reg.inner_km, reg.outer_km))
+        spread = (reg.outer_km - reg.inner_km) - (hi - lo)
+        return float(max(spread, 0.0) / math.sqrt(12.0) / speed)
+    from .ring_orbits import edge_radius_sigma_km, star_in_ring_frame
+
+    u = track.interp.in_plane(np.array([when_s]))[0][:, 0]
+    lon = math.atan2(u[1], u[0])
+    s = star_in_ring_frame(track)
+    cot_b = math.hypot(s[0], s[1]) / max(abs(s[2]), 1e-9)
+    if which in ("inner", "outer"):
+        edges = (which,)
+    elif which == "mid":
+        edges = ("inner", "outer")
+    else:
+        outer_first = side == "ingress"
+        edges = (("outer" if outer_first else "inner") if which == "start"
+                 else ("inner" if outer_first else "outer"),)
+    sig = [edge_radius_sigma_km(orbit, track.body, e, lon, when_s, cot_b) for e in edges]
+    return float(math.sqrt(sum(x * x for x in sig) / len(sig)) / speed)
+
+
 def closest_approach_sigmas(track, budget: ErrorBudget) -> dict:
     """1-sigma of the closest-approach time (s) and radius (km).
 

@@ -20,7 +20,7 @@ from occplan.bodies import get_body
 from occplan.ephemeris import Observer, get_ephemeris, parse_utc, tdb_s_of
 from occplan.errors import DataFileError
 from occplan.geometry import compute_track, window_times
-from occplan.ring_orbits import RingOrbit, parse_orbit
+from occplan.ring_orbits import parse_orbit
 
 from .test_geometry import offset_star, saturn_radec
 
@@ -32,9 +32,10 @@ T_MID = tdb_s_of(parse_utc("2028-11-16T04:00:00Z"))
 
 def _body(varpi_deg):
     uranus = get_body("uranus")
-    orbit = RingOrbit(epoch_jd_tdb=2462091.5, a_km=A, e=E, periapse_deg=varpi_deg,
-                      periapse_rate_deg_day=0.0, inner_a_km=A_IN, inner_e=E - DELTA_E,
-                      outer_a_km=A_OUT, outer_e=E + DELTA_E, source="test orbit")
+    orbit = parse_orbit({"epoch_jd_tdb": 2462091.5, "a_km": A, "e": E, "periapse_deg": varpi_deg,
+                         "periapse_rate_deg_day": 0.0, "inner_a_km": A_IN, "inner_e": E - DELTA_E,
+                         "outer_a_km": A_OUT, "outer_e": E + DELTA_E, "source": "test orbit"},
+                        "test")
     rings = tuple(dataclasses.replace(r, orbit=orbit) if r.name == "epsilon ring" else r
                   for r in uranus.rings)
     return dataclasses.replace(uranus, rings=rings)
@@ -116,3 +117,96 @@ def test_brent_reference_for_one_edge(chord):
 
     t_ref = brentq(miss, p.start_s - 60, p.end_s + 60)
     assert p.end_s == pytest.approx(t_ref, abs=1e-4)
+
+
+# --------------------------------------------------------------------------- built-in rings
+
+
+def _spice_b1950_offset_deg(body, jd_tdb):
+    """Longitude of the ring plane's B1950 ascending node from its ICRF one, with the B1950
+    equator's pole from SPICE's built-in B1950 frame (spiceypy.pxform; NAIF Frames Required
+    Reading), independent of occplan's astropy FK4 route."""
+    import spiceypy
+
+    z_b = np.array(spiceypy.pxform("B1950", "J2000", 0.0)) @ np.array([0.0, 0.0, 1.0])
+    n = np.asarray(body.pole.unit_vector(jd_tdb), dtype=float).reshape(3)
+    node = np.cross([0.0, 0.0, 1.0], n)
+    node /= np.linalg.norm(node)
+    node_b = np.cross(z_b, n)
+    node_b /= np.linalg.norm(node_b)
+    return math.degrees(math.atan2(np.cross(n, node) @ node_b, node @ node_b))
+
+
+def test_b1950_longitudes_turn_to_the_icrf_node():
+    from occplan.ring_orbits import reference_offset_rad
+
+    uranus = get_body("uranus")
+    orbit = next(r.orbit for r in uranus.rings if r.name == "epsilon ring")
+    assert orbit.longitude_reference == "B1950"
+    ours = math.degrees(reference_offset_rad(orbit, uranus))
+    assert ours == pytest.approx(_spice_b1950_offset_deg(uranus, orbit.epoch_jd_tdb), abs=1e-5)
+
+
+@pytest.fixture(scope="module")
+def uranus_event(chord):
+    eph, star, times = chord
+    uranus = get_body("uranus")
+    return uranus, compute_track(eph, uranus, Observer.geocentre(), star, times)
+
+
+def test_every_uranian_ring_has_its_orbit_and_is_crossed_on_it(uranus_event):
+    """French et al. 1991 elements (the body file): every ring's edges are crossed between
+    a (1 - e) and a (1 + e) of that edge, widened by the in-plane shift of an inclined ring
+    (at most a sin i cot B*)."""
+    uranus, tr = uranus_event
+    rings = {r.name: r for r in uranus.rings}
+    assert all(r.orbit is not None for r in rings.values()) and len(rings) == 10
+    b_star = math.radians(abs(tr.meta["star_elevation_deg"]))
+    seen = set()
+    for c in tr.crossings:
+        orbit = rings[c.region].orbit
+        edge = orbit.edge_orbit(c.edge)
+        lift = edge.a_km * math.sin(math.radians(edge.inclination_deg)) / math.tan(b_star)
+        assert edge.a_km * (1 - edge.e) - lift - 1e-3 <= c.boundary_km <= \
+            edge.a_km * (1 + edge.e) + lift + 1e-3, (c.region, c.edge)
+        seen.add((c.region, c.side))
+    assert len(seen) == 20  # ten rings, both sides
+
+
+def test_inclined_edge_against_the_exact_plane_intersection(uranus_event):
+    """The 6 ring is inclined by 0.0616 deg (a sin i = 45 km; French et al. 1991).  At the
+    solved crossing time the ray, intersected exactly with the ring's own tilted plane
+    (normal (sin i sin Omega, -sin i cos Omega, cos i) in the ring frame, textbook orbital
+    geometry), lands on the edge's precessing ellipse.  Node and periapse are propagated here
+    by hand, with the B1950 node from SPICE."""
+    from astropy.coordinates import SkyCoord
+    import astropy.units as u
+
+    uranus, tr = uranus_event
+    ring = next(r for r in uranus.rings if r.name == "6 ring")
+    orbit = ring.orbit
+    c = next(c for c in tr.crossings if c.region == "6 ring" and c.edge == "outer")
+    edge = orbit.outer
+    jd = 2451545.0 + c.tdb_s / 86400.0
+    days = jd - orbit.epoch_jd_tdb
+    off = _spice_b1950_offset_deg(uranus, orbit.epoch_jd_tdb)
+    node_l = math.radians(edge.node_deg + off + edge.node_rate_deg_day * days)
+    peri = math.radians(edge.periapse_deg + off + edge.periapse_rate_deg_day * days)
+    inc = math.radians(edge.inclination_deg)
+    # ring frame: ascending node of the ring plane on the ICRF equator, perpendicular, pole
+    n = np.asarray(uranus.pole.unit_vector(jd), dtype=float).reshape(3)
+    x = np.cross([0.0, 0.0, 1.0], n)
+    x /= np.linalg.norm(x)
+    y = np.cross(n, x)
+    sc = SkyCoord(tr.star.ra_deg * u.deg, tr.star.dec_deg * u.deg).cartesian.xyz.value
+    s = np.array([sc @ x, sc @ y, sc @ n])
+    uu = tr.interp.in_plane(np.array([c.tdb_s]))[0][:, 0]
+    U = np.array([uu[0], uu[1], 0.0])
+    normal = np.array([math.sin(inc) * math.sin(node_l), -math.sin(inc) * math.cos(node_l),
+                       math.cos(inc)])
+    q = U - (normal @ U) / (normal @ s) * s
+    lon = math.atan2(q[1], q[0])
+    r_ellipse = edge.a_km * (1 - edge.e ** 2) / (1 + edge.e * math.cos(lon - peri))
+    assert np.linalg.norm(q) == pytest.approx(r_ellipse, abs=0.05)
+    # and the tilt matters: the flat-plane radius misses the edge by ten times the tolerance
+    assert abs(np.linalg.norm(U) - r_ellipse) > 0.5
