@@ -211,9 +211,9 @@ def ring_model_time_sigma_s(track, region: str, side: str, when_s: float, which:
     A ring with an orbit model (:mod:`occplan.ring_orbits`): the edge's radial uncertainty
     at the crossing's longitude (fit rms, periapse and node phase errors), over |dr/dt|;
     ``which`` is 'start' or 'end' of the pass (the outer edge starts an ingress pass), 'mid'
-    (both edges in quadrature over 2) or the edge itself ('inner', 'outer').  A narrow ring crossed within a circular radial
-    envelope wider than itself (no orbit model): the ring lies anywhere in the envelope, a
-    uniform spread of (envelope - width) / sqrt(12) in radius.  0 for other regions."""
+    (both edges in quadrature over 2) or the edge itself ('inner', 'outer').  A narrow ring
+    crossed within a circular radial envelope wider than itself (no orbit model): the ring
+    lies anywhere in the envelope, a uniform spread of (envelope - width) / sqrt(12) in radius.  0 for other regions."""
     reg = next((r for r in track.body.rings if r.name == region), None)
     if reg is None or not np.isfinite(when_s):
         return 0.0
