@@ -12,11 +12,13 @@ from __future__ import annotations
 COLUMN_UNITS = {
     # lengths
     **{c: "km" for c in (
-        "ring_radius_km", "sky_f_km", "sky_g_km", "resonance_radius_km", "zone_inner_km",
+        "ring_radius_km", "sky_f_km", "sky_g_km", "resonance_radius_km", "crossing_radius_km",
+        "zone_inner_km",
         "zone_outer_km", "first_wavelength_km", "damping_length_km", "shortest_wavelength_km",
         "scale_km", "feature_scale_km", "achievable_resolution_km", "resolved_extent_km",
         "min_ring_radius_km", "geocentric_min_ring_radius_km", "sky_distance_km",
-        "boundary_km", "radius_km", "best_resolution_km", "planet_sky_km")},
+        "boundary_km", "radius_km", "best_resolution_km", "planet_sky_km", "location_sigma_km",
+        "edge_radius_km")},
     "distance_au": "AU",
     # angles
     **{c: "deg" for c in (

@@ -51,6 +51,20 @@ class EventReport:
     recording: dict | None = None
 
     # ---------------------------------------------------------------- JSON
+    def crossing_radius_km(self, z) -> float:
+        """Where the chord meets the feature: an eccentric ring's or edge's solved radius (the
+        mean of its edges' for a ring), else the ring-plane radius at the feature's time."""
+        tr = self.track
+        f = z.feature
+        if f.feature in ("narrow ring", "edge"):
+            hits = [c.boundary_km for c in tr.crossings if c.region == f.region and c.side == z.side
+                    and z.start_s - 1e-6 <= c.tdb_s <= z.end_s + 1e-6]
+            reg = next((r for r in tr.body.rings if r.name == f.region), None)
+            if hits and reg is not None and reg.orbit is not None:
+                return float(np.mean(hits))
+        t = z.time_s if np.isfinite(z.time_s) else 0.5 * (z.start_s + z.end_s)
+        return float(tr.interp.radius(np.array([t]))[0])
+
     def zone_rows(self) -> list[dict]:
         rows = []
         for z in self.zones:
@@ -59,6 +73,7 @@ class EventReport:
                 "name": f.name, "feature": f.feature,
                 "label": f.label, "satellite": f.satellite, "kind": f.kind, "wave": f.wave,
                 "m": f.m, "order": f.order, "resonance_radius_km": f.resonance_radius_km,
+                "crossing_radius_km": self.crossing_radius_km(z),
                 "side": z.side,
                 "time_utc": None if not np.isfinite(z.time_s) else _utc(z.time_s),
                 "time_sigma_s": z.time_sigma_s,
@@ -74,6 +89,7 @@ class EventReport:
                 "amplitude": f.amplitude, "weight": f.weight,
                 "optical_depth": f.optical_depth, "transmission": z.transmission,
                 "contrast": z.contrast, "snr_per_element": z.snr_per_element,
+                "location_sigma_km": z.location_sigma_km,
                 "usable": z.usable, "torque_dyn_cm": f.torque_dyn_cm, "edge": f.edge,
                 "zone_inner_km": f.zone_inner_km, "zone_outer_km": f.zone_outer_km,
                 "region": f.region, "partial": z.partial, "reasons": z.reasons,
@@ -519,13 +535,17 @@ def summary_text(rep: EventReport, max_zones: int | None = 30) -> str:
                        f"({z.limit}-limited)")
             if z.reasons and "SNR" in " ".join(z.reasons):
                 verdict += "; " + next(r for r in z.reasons if "SNR" in r)
+        elif (f.feature in ("edge", "narrow ring") and np.isfinite(z.location_sigma_km)
+              and not z.behind_planet and not z.partial):
+            verdict = (f"located to {z.location_sigma_km:.2g} km, profile not resolved "
+                       f"({z.limit}-limited, {z.achievable_resolution_km:.2f} km)")
         else:
             verdict = "NOT: " + (z.reasons[0] if z.reasons else "")
         if z.usable is False:
             verdict += " [not observable]"
         snr = f"{z.snr_per_element:6.1f}" if np.isfinite(z.snr_per_element) else "     -"
         trans = f"{z.transmission:6.3f}" if np.isfinite(z.transmission) else "     -"
-        lines.append(f"  {z.side:7s} {t:21s} {f.name[:40]:40s} {f.resonance_radius_km:9.1f} "
+        lines.append(f"  {z.side:7s} {t:21s} {f.name[:40]:40s} {rep.crossing_radius_km(z):9.1f} "
                      f"{z.radial_velocity_km_s:7.2f} {z.feature_scale_km:6.2f} "
                      f"{z.required_interval_s:8.3f} {z.achievable_resolution_km:6.2f} {trans} {snr}  {verdict}")
     if len(shown) < len(rep.zones):
@@ -534,8 +554,13 @@ def summary_text(rep: EventReport, max_zones: int | None = 30) -> str:
     if d.get("from_memory"):
         lines += ["", f"Values marked 'from memory' in the data files that this event rests on "
                       f"({len(d['from_memory'])}; see --format json for the full sources):"]
-        for item in d["from_memory"]:
-            lines.append(f"  - {item.split(':')[0]}")
+        names = [item.split(":")[0] for item in d["from_memory"]]
+        orbits = [n[:-len(" orbit")] for n in names if n.endswith(" orbit")]
+        rest = [n for n in names if not n.endswith(" orbit")]
+        if rest:
+            lines.append("  - " + ", ".join(rest))
+        if orbits:
+            lines.append("  - ring orbits: " + ", ".join(orbits))
     ob = d["observability"]
     lines.append("")
     if ob.get("applicable"):
