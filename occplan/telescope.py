@@ -41,6 +41,7 @@ class TelescopeProfile:
     frame_width_px: float = 256.0
     frame_height_px: float = 256.0
     bits_per_pixel: float = 16.0
+    bands: tuple | None = None  # the bands the camera works in (None: not stated)
     sources: dict = field(default_factory=dict, compare=False, hash=False)
     path: str = ""
 
@@ -71,7 +72,7 @@ _NUMERIC = ("aperture_m", "central_obstruction", "throughput", "read_noise_e", "
             "pixel_scale_arcsec", "aperture_radius_arcsec", "cadence_s", "dead_time_s",
             "samples_per_wavelength", "seeing_fwhm_arcsec", "frame_width_px", "frame_height_px",
             "bits_per_pixel")
-ALLOWED_KEYS = ("name",) + _NUMERIC + ("band", "source")
+ALLOWED_KEYS = ("name",) + _NUMERIC + ("band", "bands", "source")
 
 
 def _read_toml(text: str, where: str) -> dict:
@@ -87,6 +88,8 @@ def _check_keys(data: dict, where: str) -> None:
             raise DataFileError(f"telescope file {where}: unknown key {key!r}; allowed keys are "
                                 f"{', '.join(ALLOWED_KEYS)}")
 
+
+INFRARED_BANDS = ("J", "H", "K")
 
 # Larger than any telescope built or planned (the largest are about 40 m; common practice).
 MAX_APERTURE_M = 100.0
@@ -128,6 +131,15 @@ def _validate(p: TelescopeProfile) -> TelescopeProfile:
     if p.aperture_radius_arcsec < p.pixel_scale_arcsec / 2:
         bad("aperture_radius_arcsec", "the photometric aperture must cover at least one pixel")
     band(p.band)  # UnknownNameError listing the known bands
+    if p.bands is not None:
+        for b in p.bands:
+            band(b)
+        if p.band not in p.bands:
+            raise InputError(
+                f"telescope band {p.band!r} is not one the camera of {p.name!r} works in "
+                f"({', '.join(p.bands)}): its read noise, dark current and throughput belong "
+                f"to that detector; give a profile for a camera that works in {p.band} "
+                "(--telescope FILE)")
     return p
 
 
@@ -144,6 +156,13 @@ def _build(data: dict, sources: dict, path: str) -> TelescopeProfile:
         kwargs[key] = float(v)
     kwargs["name"] = str(kwargs["name"])
     kwargs["band"] = str(kwargs["band"])
+    bands = kwargs.get("bands")
+    if bands is not None:
+        if isinstance(bands, str) or not isinstance(bands, (list, tuple)) or \
+                not all(isinstance(b, str) for b in bands) or not bands:
+            raise InputError(f"telescope bands = {bands!r} is invalid: give a list of band names "
+                             "such as [\"V\", \"R\", \"I\"]")
+        kwargs["bands"] = tuple(str(b) for b in bands)
     return _validate(TelescopeProfile(**kwargs, sources=sources, path=path))
 
 
@@ -161,7 +180,10 @@ def load_telescope(path: str | Path | None = None, **overrides) -> TelescopeProf
         keep the default values.
     **overrides
         Values that replace those of the file (e.g. ``aperture_m=2.0, band="K"``); ``None``
-        values are ignored, so command-line options can be passed straight through.
+        values are ignored, so command-line options can be passed straight through.  Without
+        a file, ``band`` J, H or K selects the default infrared profile
+        (``telescope_default_ir.toml``): a silicon camera does not see those bands.  A profile
+        that lists its camera's ``bands`` refuses any other band.
 
     Raises
     ------
@@ -173,8 +195,11 @@ def load_telescope(path: str | Path | None = None, **overrides) -> TelescopeProf
     UnknownNameError
         An unknown band.
     """
-    res = resources.files("occplan") / "data" / "telescope_default.toml"
-    data = _read_toml(res.read_text(encoding="utf-8"), "occplan/data/telescope_default.toml")
+    default = "telescope_default.toml"
+    if path is None and str(overrides.get("band") or "") in INFRARED_BANDS:
+        default = "telescope_default_ir.toml"  # a silicon camera does not see J, H, K
+    res = resources.files("occplan") / "data" / default
+    data = _read_toml(res.read_text(encoding="utf-8"), f"occplan/data/{default}")
     sources = dict(data.pop("source", {}))
     where = ""
     if path is not None:
@@ -189,6 +214,9 @@ def load_telescope(path: str | Path | None = None, **overrides) -> TelescopeProf
             user_sources = {"file": str(user_sources)}
         for key in user:
             sources[key] = user_sources.get(key, f"user file {where}")
+        if "bands" not in user:  # the default camera's bands say nothing of this one
+            data["bands"] = None
+            sources["bands"] = f"not stated in {where}"
         data.update(user)
     for key, value in overrides.items():
         if value is None:
@@ -198,12 +226,17 @@ def load_telescope(path: str | Path | None = None, **overrides) -> TelescopeProf
                              f"{', '.join(k for k in ALLOWED_KEYS if k != 'source')}")
         data[key] = value
         sources[key] = "override"
+    if overrides.get("band") is not None and data.get("bands") is None:
+        sources["band"] = ("override: the read noise, dark current and throughput are still the "
+                           "profile's (its camera's bands are not stated)")
     return _build(data, sources, where)
 
 
 def with_overrides(profile: TelescopeProfile, **overrides) -> TelescopeProfile:
     """A copy of ``profile`` with some values replaced (validated; ``None`` ignored)."""
     changes = {k: v for k, v in overrides.items() if v is not None}
+    if "bands" in changes:
+        changes["bands"] = tuple(changes["bands"])
     for key in changes:
         if key not in ALLOWED_KEYS or key == "source":
             raise InputError(f"unknown telescope setting {key!r}")

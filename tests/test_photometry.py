@@ -272,3 +272,26 @@ def test_telescope_bad_band_and_file(tmp_path):
     bad.write_text("aperture_m = = 1\n", encoding="utf-8")
     with pytest.raises(DataFileError):
         load_telescope(bad)
+
+
+def test_a_camera_is_not_asked_for_a_band_it_cannot_see(tmp_path):
+    """A silicon camera detects 0.35-1.0 um and an infrared array 1-2.5 um (common practice):
+    the default profile asked for K becomes the default infrared profile, and a profile that
+    lists its camera's bands refuses another band instead of keeping the wrong detector's
+    read noise."""
+    from occplan.errors import InputError
+    from occplan.telescope import load_telescope
+
+    cmos = load_telescope()
+    ir = load_telescope(band="K")
+    assert cmos.bands == ("V", "R", "I") and ir.bands == ("J", "H", "K")
+    assert ir.read_noise_e > cmos.read_noise_e and ir.band == "K"
+    k_file = tmp_path / "k.toml"
+    k_file.write_text('name = "K camera"\nband = "K"\nbands = ["J", "H", "K"]\nread_noise_e = 12.0\n')
+    with pytest.raises(InputError, match="not one the camera"):
+        load_telescope(k_file, band="V", aperture_m=0.6)
+    # a file that does not state its camera's bands takes any band, and says so
+    bare = tmp_path / "bare.toml"
+    bare.write_text('name = "unknown camera"\nband = "K"\n')
+    t = load_telescope(bare, band="V")
+    assert t.band == "V" and t.bands is None and "still the profile's" in t.sources["band"]
