@@ -510,7 +510,14 @@ def summary_text(rep: EventReport, max_zones: int | None = 30) -> str:
     bg = rep.photometry.get("background", {})
     for n in bg.get("notes", []):
         lines.append(f"  note: {n}")
-    lines += ["", f"Features crossed: {len(rep.zones)} ({n_res} resolvable, {n_part} in part); "
+    n_feat = len({z.feature.name for z in rep.zones if z.feature.weight > 0})
+    n_listed = len({z.feature.name for z in rep.zones if z.feature.weight <= 0})
+    n_located = sum((not z.resolvable) and z.feature.feature in ("edge", "narrow ring")
+                    and np.isfinite(z.location_sigma_km) and not z.partial and not z.behind_planet
+                    for z in rep.zones)
+    lines += ["", f"Features crossed: {n_feat} scored ({len(rep.zones)} crossings: {n_res} resolvable, "
+                  f"{n_part} in part, {n_located} located only"
+                  + (f"; {n_listed} corotation zones listed, not scored" if n_listed else "") + "); "
                   f"{rep.meta['feature_selection']}",
               "  SNR: the feature's own signal per resolution element, through the ring's slant "
               "transmission T = exp(-tau/|sin B*|), with the planet and ring light in the aperture"]
