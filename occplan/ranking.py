@@ -14,8 +14,11 @@ where v_f,1 >= v_f,2 are the values of the feature's crossings on the two sides 
   profile);
 - resolved = the resolved fraction of the feature (0 behind the planet): the part of a wave
   train whose wavelength stays above twice the achievable resolution and N samples, or 1/0
-  for an edge, a narrow ring or an overlap region (:mod:`occplan.coverage`).  No credit
-  floor: an unresolved feature earns nothing;
+  for an edge, a narrow ring or an overlap region (:mod:`occplan.coverage`); for an edge or
+  a narrow ring crossed whole but not resolved, the larger of that and the location credit
+  ``location.credit / (1 + (sigma_r / location.reference_km)^2)``, sigma_r = element / SNR
+  the precision of its radius (:func:`location_factor`).  No other credit floor: an
+  unresolved wave earns nothing;
 - q_snr = SNR^2 / (SNR^2 + reference^2), SNR the feature's own signal per resolution
   element through the ring's slant transmission (:func:`occplan.photometry.feature_snr`):
   grows with every photon and saturates at 1, so a brighter star or a larger telescope
