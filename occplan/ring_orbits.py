@@ -293,13 +293,22 @@ def edge_height_km(orbit: RingOrbit, body, which: str, longitude_rad, t_tdb_s) -
 def edge_radius_sigma_km(orbit: RingOrbit, body, which: str, longitude_rad, t_tdb_s,
                          cot_b: float = 0.0) -> float:
     """1-sigma of an edge's radius at a longitude: the fit's rms, the periapse phase error
-    (a e |sin f| sigma_phase) and, for an inclined edge, the node phase error moving its
-    height (a sin i |cos(lambda - Omega)| sigma_phase, seen in the ring plane times cot B*)."""
+    (a e |sin f| sigma_phase), each normal mode's pattern-phase error (m A_m |sin arg|
+    sigma_phase) and, for an inclined edge, the node phase error moving its height
+    (a sin i |cos(lambda - Omega)| sigma_phase, seen in the ring plane times cot B*), all
+    added in quadrature."""
     o = orbit.edge_orbit(which)
     s = math.radians(orbit.phase_sigma_deg)
     lon = float(longitude_rad)
     f = lon - float(periapse_rad(orbit, body, t_tdb_s, which))
     radial = o.a_km * o.e * abs(math.sin(f)) * s
+    if o.modes:  # each mode's pattern phase off by sigma moves the radius by m A |sin arg| sigma
+        dt_day = float(_days(orbit, t_tdb_s))
+        offset = reference_offset_rad(orbit, body)
+        for mode in o.modes:
+            arg = mode.m * (lon - offset - math.radians(mode.phase_deg)
+                            - math.radians(mode.pattern_speed_deg_day) * dt_day)
+            radial = math.hypot(radial, abs(mode.m) * mode.amplitude_km * abs(math.sin(arg)) * s)
     vertical = 0.0
     if o.inclination_deg:
         d = lon - float(node_rad(orbit, body, t_tdb_s, which))

@@ -210,3 +210,21 @@ def test_inclined_edge_against_the_exact_plane_intersection(uranus_event):
     assert np.linalg.norm(q) == pytest.approx(r_ellipse, abs=0.05)
     # and the tilt matters: the flat-plane radius misses the edge by ten times the tolerance
     assert abs(np.linalg.norm(U) - r_ellipse) > 0.5
+
+
+def test_mode_phase_error_moves_the_radius_as_a_finite_difference():
+    """edge_radius_sigma_km's mode term m A |sin arg| sigma against turning the pattern by
+    sigma in edge_radius_km (a finite difference; small-angle calculus)."""
+    from occplan.ring_orbits import edge_radius_km, edge_radius_sigma_km
+
+    saturn = get_body("saturn")
+    table = {"epoch_jd_tdb": 2454467.0, "a_km": 117569.41, "e": 0.0, "periapse_deg": 0.0,
+             "periapse_rate_deg_day": 0.0, "phase_sigma_deg": 0.5,
+             "modes": [{"m": 2, "amplitude_km": 31.77, "phase_deg": 164.83,
+                        "pattern_speed_deg_day": 381.98729}]}
+    turned = dict(table, modes=[dict(table["modes"][0], phase_deg=164.83 + 0.5)])
+    o, o2 = parse_orbit(table, "t"), parse_orbit(turned, "t")
+    t = 8.0e8
+    for lon in np.radians([10.0, 50.0, 100.0, 222.0]):
+        d = abs(float(edge_radius_km(o2, saturn, "outer", lon, t) - edge_radius_km(o, saturn, "outer", lon, t)))
+        assert edge_radius_sigma_km(o, saturn, "outer", lon, t) == pytest.approx(d, rel=0.02, abs=0.01)
