@@ -388,8 +388,18 @@ def _uncertainties(track, star, zones, tel, star_error_mas, planet_error_km, pol
             z.time_sigma_s = float(math.hypot(sig, model))
     # grazing chords: the chance of reaching each boundary within 3 sigma of closest approach
     r_ca, s_ca = track.closest_approach_radius_km, ca["radius_km"]
-    bounds = {(r.name, "inner", r.inner_km) for r in track.body.rings} | \
-        {(r.name, "outer", r.outer_km) for r in track.body.rings}
+    t_ca = track.closest_approach_s
+    bounds = set()
+    for r in track.body.rings:
+        for which, radius in (("inner", r.inner_km), ("outer", r.outer_km)):
+            if r.orbit is not None and np.isfinite(r_ca):
+                # an eccentric edge where the chord turns: its radius at that longitude
+                from .ring_orbits import edge_radius_km
+
+                u = track.interp.in_plane(np.array([t_ca]))[0][:, 0]
+                radius = float(edge_radius_km(r.orbit, track.body, which,
+                                              math.atan2(u[1], u[0]), t_ca))
+            bounds.add((r.name, which, radius))
     out["reach_probability"] = sorted(
         ({"region": n, "edge": e, "boundary_km": b,
           "probability": un.reach_probability(r_ca, s_ca, b)}
