@@ -24,7 +24,9 @@ COLUMN_UNITS = {
     **{c: "deg" for c in (
         "ring_longitude_deg", "opening_angle_deg", "star_elevation_deg",
         "pole_position_angle_deg", "sun_opening_angle_deg", "planet_ra_deg", "planet_dec_deg",
-        "star_ra_deg", "star_dec_deg", "ra_deg", "dec_deg")},
+        "star_ra_deg", "star_dec_deg", "ra_deg", "dec_deg", "lat_deg", "lon_deg",
+        "planet_altitude_min_deg", "sun_altitude_max_deg", "ingress_longitude_deg",
+        "egress_longitude_deg")},
     **{c: "arcsec" for c in ("planet_radius_arcsec", "outer_ring_radius_arcsec")},
     "star_parallax_mas": "mas",
     # rates

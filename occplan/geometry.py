@@ -325,7 +325,7 @@ class Track:
         return self.body.region_at(self.ring_radius_km)
 
     def rows(self) -> list[dict]:
-        """Chord rows with the DESIGN.md section 8 field names."""
+        """Chord rows with the field names of docs/output_schema.md."""
         times = utc_iso(time_from_tdb_s(self.tdb_s))
         regions = self.regions()
         return [

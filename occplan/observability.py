@@ -26,7 +26,7 @@ from .errors import InputError
 # standard refraction, civil, nautical, astronomical (common practice; the almanac definitions).
 SUNRISE_ALT_DEG = -0.833
 CIVIL_DEG, NAUTICAL_DEG, ASTRONOMICAL_DEG = -6.0, -12.0, -18.0
-SUN_CAUTION_SEPARATION_DEG = 15.0  # DESIGN.md sec. 7
+SUN_CAUTION_SEPARATION_DEG = 15.0  # docs/design.md sec. 7
 DEFAULT_MIN_ALTITUDE_DEG = 20.0  # airmass ~2.9: scintillation and extinction grow fast below it
 DEFAULT_SUN_LIMIT_DEG = -12.0  # nautical twilight: sky dark enough for bright occultation stars
 DEFAULT_MOON_SEPARATION_DEG = 30.0  # a bright Moon closer than this brightens the sky
@@ -315,7 +315,7 @@ def cautions(conditions: ObservingConditions, *, moon_separation_deg=DEFAULT_MOO
     """Plain-language cautions for the window (empty when nothing stands out).
 
     - Sun above the horizon, or within 15 deg of the target, anywhere in the window: a safety
-      caution (DESIGN.md sec. 7).
+      caution (docs/design.md sec. 7).
     - Planet below the horizon or below the minimum altitude for part of the window.
     - Twilight (Sun between -18 and -0.833 deg).
     - A Moon more than ``moon_illumination`` lit closer than ``moon_separation_deg`` and above

@@ -5,7 +5,7 @@ the Axes it drew on; without ``ax`` it makes its own :class:`matplotlib.figure.F
 (no pyplot: the library never opens a window, never calls ``plt.show()`` and never changes
 the user's backend; files are rendered by the Agg and PDF canvases).
 
-Conventions drawn (DESIGN.md sec. 3): the sky plane at the planet has f east and g north in
+Conventions drawn (docs/design.md sec. 3): the sky plane at the planet has f east and g north in
 km from the planet centre and is shown as on the sky, north up and **east to the left**.
 The rings are the body file's regions as ellipses r x r |sin B*| (``occplan.coverage``); the
 half of each ring behind the planet's sky plane is hidden where it lies on the disk and the

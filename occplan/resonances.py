@@ -1,7 +1,7 @@
 """Satellite resonances in planetary rings: location, strength and wave zone.
 
-Pattern speeds, labels and orders (DESIGN.md sec. 5)
-----------------------------------------------------
+Pattern speeds, labels and orders (docs/design.md sec. 5)
+---------------------------------------------------------
 A satellite with observed mean motion n_s, apsidal rate pomegadot_s and nodal rate
 Omegadot_s forces potential terms rotating at
 
@@ -142,7 +142,7 @@ class Resonance:
         return self.torque_per_sigma * sig if self.region and np.isfinite(sig) and sig > 0 else 0.0
 
     def to_row(self) -> dict:
-        """A dict with the DESIGN.md sec. 8 zones names first, then the extra fields."""
+        """A dict with the zones field names of docs/output_schema.md first, then the extra fields."""
         return dataclasses.asdict(self)
 
 

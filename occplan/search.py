@@ -496,7 +496,7 @@ class Event:
         return self.candidate.star_id
 
     def row(self) -> dict:
-        """The DESIGN.md section 8 find fields plus what rank needs to rebuild the event."""
+        """The find fields of docs/output_schema.md plus what rank needs to rebuild the event."""
         c, s = self.candidate, self.candidate.star
         # in the order the chord meets them (outer to inner on ingress)
         regions = list(dict.fromkeys(p.region for p in sorted(self.passes, key=lambda p: p.start_s)))

@@ -85,9 +85,9 @@ def test_event_zones_are_consistent(report):
         if np.isfinite(z.time_s):
             assert z.start_s - 1e-3 <= z.time_s <= z.end_s + 1e-3
             assert row["start_utc"] <= row["time_utc"] <= row["end_utc"]
-        # DESIGN.md sec. 6: dt_req = lambda_min / (N |dr/dt|)
+        # docs/design.md sec. 6: dt_req = lambda_min / (N |dr/dt|)
         assert z.required_interval_s == pytest.approx(z.feature_scale_km / (spw * z.max_radial_speed_km_s))
-        # DESIGN.md sec. 6: resolvable = finer than half the shortest wavelength, sampled at
+        # docs/design.md sec. 6: resolvable = finer than half the shortest wavelength, sampled at
         # N per wavelength, fully crossed, not hidden, and enough SNR
         assert z.resolvable == (z.achievable_resolution_km < z.feature_scale_km / 2
                                 and report.telescope.cadence_s <= z.required_interval_s

@@ -96,7 +96,7 @@ def test_track_mirror_symmetry(eph, saturn):
 
 
 def test_interpolation_error_against_exact(eph, saturn):
-    """The default spline nodes reproduce exact per-sample geometry to < 1 m (DESIGN.md 4.7)."""
+    """The default spline nodes reproduce exact per-sample geometry to < 1 m (docs/design.md sec. 4.7)."""
     ra, dec = saturn_radec(eph, saturn, T_MID)
     star = offset_star(ra, dec, 2.0, 6.0)
     site = Observer.site("s", -30.2, -70.7, 2200.0)

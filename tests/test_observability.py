@@ -28,7 +28,7 @@ def test_kasten_young_reference_points():
     x = ob.airmass_kasten_young([90.0, 0.0])
     assert x[0] == pytest.approx(1.0, abs=5e-4)
     assert x[1] == pytest.approx(38.0, abs=0.5)
-    # Brief / DESIGN: a 20 deg altitude limit is airmass about 2.9.
+    # docs/design.md sec. 7: a 20 deg altitude limit is airmass about 2.9 (Kasten & Young 1989).
     assert float(ob.airmass_kasten_young(20.0)) == pytest.approx(2.9, abs=0.01)
     assert np.isnan(ob.airmass_kasten_young(-1.0))
 

@@ -186,7 +186,7 @@ def test_wave_directions_and_zones():
                           max_m=10)
     for x in res:
         assert x.zone_inner_km <= x.resonance_radius_km <= x.zone_outer_km
-        if x.wave == "density":  # satellite outside: density waves outward (DESIGN.md sec. 5)
+        if x.wave == "density":  # satellite outside: density waves outward (docs/design.md sec. 5)
             assert x.propagation == "outward" and x.zone_inner_km == x.resonance_radius_km
             assert x.shortest_wavelength_km < x.first_wavelength_km
         elif x.wave == "bending":
@@ -194,7 +194,7 @@ def test_wave_directions_and_zones():
         else:
             assert x.kind == "CR" and x.zone_outer_km - x.zone_inner_km < 20
     # a satellite inside the rings (Pan): outside its orbit the density waves of its OLRs
-    # travel toward it, i.e. inward (DESIGN.md sec. 5)
+    # travel toward it, i.e. inward (docs/design.md sec. 5)
     pan = find_resonances(SATURN, rmin_km=133700, rmax_km=136000, satellites=["Pan"], max_m=60)
     olr = [x for x in pan if x.kind == "OLR"]
     assert olr and all(x.propagation == "inward" for x in olr)

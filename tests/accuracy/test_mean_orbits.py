@@ -139,7 +139,7 @@ def test_exact_barycentre_relation():
 
 # ---------------------------------------------------------------- sizes
 def test_saturn_offset_size_is_titan():
-    """About 290 km, from Titan (DESIGN.md sec. 4.5): GM_T a_T / GM_sys = 289 km.
+    """About 290 km, from Titan (docs/design.md sec. 4.5): GM_T a_T / GM_sys = 289 km.
 
     Bounds: Titan's share a(1 -+ e) GM_T/GM_sys, widened by the other moons' maximum share
     (Iapetus 11.3 km, Rhea 2.1 km, Dione 0.7 km, Tethys 0.3 km) and 1 km of slack.
