@@ -125,7 +125,7 @@ class EventReport:
         return out
 
     def crossing_rows(self) -> list[dict]:
-        """Region crossings (the names of docs/features_and_scoring.md) with the 1-sigma of their start and end times."""
+        """Region crossings with the 1-sigma of their start and end times."""
         rows = pass_rows(self.track)
         sig = self.uncertainty.get("passes", [])
         for row, (a, b) in zip(rows, sig):

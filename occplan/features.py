@@ -404,7 +404,7 @@ def _edge_candidates(resonances, segs, settings, group):
     # one holder per edge and satellite group: the closest (neighbouring m of one moon can
     # both fall within the tolerance of a narrow ring's edge)
     closest = {}
-    for i, (d, s, edge, which) in hits.items():
+    for i, (d, s, _edge, which) in hits.items():
         key = (id(s), which, group.get(resonances[i].satellite, resonances[i].satellite))
         if key not in closest or d < closest[key][0]:
             closest[key] = (d, i)
@@ -596,7 +596,7 @@ def _overlap_regions(feats: list[Feature], settings) -> list[Feature]:
     for f in waves:
         by_key.setdefault((f.satellite, f.kind, f.region, f.order), []).append(f)
     out = list(rest)
-    for (sat, kind, region, order), group in by_key.items():
+    for (sat, kind, _region, _order), group in by_key.items():
         group.sort(key=lambda f: f.resonance_radius_km)
         chain = [group[0]]
         chains = []

@@ -28,7 +28,7 @@ from hypothesis import strategies as st
 from occplan.bodies import get_body
 from occplan.ephemeris import J2000_TDB_JD, Observer, StarSpec, time_from_tdb_s
 from occplan.errors import GeometryError
-from occplan.geometry import Corrections, compute_track, exact_geometry, window_times
+from occplan.geometry import compute_track, exact_geometry, window_times
 
 BODIES = ("saturn", "uranus", "neptune", "jupiter")
 T_1950 = -50.0 * 365.25 * 86400.0  # TDB s past J2000

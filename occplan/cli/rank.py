@@ -6,7 +6,7 @@ from typing import Annotated, Optional
 
 import typer
 
-from .. import ranking, search
+from .. import ranking
 from ..bodies import get_body
 from ..errors import InputError
 from ..tables import all_or_none, check_format, check_out
