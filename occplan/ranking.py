@@ -466,6 +466,24 @@ def rank_rows(rows: list[dict]) -> list[dict]:
     return ordered
 
 
+def _json_object(row: dict, key: str) -> dict:
+    """A find row's object field (JSON rows hold it as an object, CSV as JSON text)."""
+    import json
+
+    v = row.get(key)
+    if v is None or v == "":
+        return {}
+    if isinstance(v, str):
+        try:
+            v = json.loads(v)
+        except json.JSONDecodeError:
+            raise DataFileError(f"find result row {row.get('star_id')!r}: {key!r} is not valid "
+                                "JSON") from None
+    if not isinstance(v, dict):
+        raise DataFileError(f"find result row {row.get('star_id')!r}: {key!r} must be an object")
+    return v
+
+
 def read_find_result(path: str | Path) -> tuple[list[dict], dict]:
     """Rows and meta of a find result written as JSON or ECSV by `occplan find`."""
     import json
@@ -511,7 +529,7 @@ def read_find_result(path: str | Path) -> tuple[list[dict], dict]:
                     v = bool(v)
                 elif isinstance(v, (str, np.str_)):
                     v = str(v)
-                    if c in ("zones", "zone_factors"):
+                    if c in ("zones", "zone_factors", "star_extra", "star_errors"):
                         try:
                             v = json.loads(v)
                         except json.JSONDecodeError:
@@ -565,7 +583,9 @@ def reevaluate_rows(rows: list[dict], meta: dict, *, settings: RankSettings = Ra
                             pm_ra_mas_yr=row["star_pm_ra_mas_yr"], pm_dec_mas_yr=row["star_pm_dec_mas_yr"],
                             parallax_mas=row["star_parallax_mas"], rv_km_s=row["star_rv_km_s"],
                             epoch_jd_tt=row["star_epoch_jd_tt"], name=str(row["star_id"]),
-                            vmag=row.get("vmag"), kmag=row.get("kmag"))
+                            vmag=row.get("vmag"), kmag=row.get("kmag"),
+                            extra=_json_object(row, "star_extra"),
+                            errors=_json_object(row, "star_errors"))
             new = dict(row)
             if row.get("crossing_start_utc"):
                 a = tdb_s_of(parse_utc(row["crossing_start_utc"])) - EVAL_PAD_S

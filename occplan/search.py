@@ -520,6 +520,10 @@ class Event:
             "star_pm_ra_mas_yr": s.pm_ra_mas_yr, "star_pm_dec_mas_yr": s.pm_dec_mas_yr,
             "star_parallax_mas": s.parallax_mas, "star_rv_km_s": s.rv_km_s,
             "star_epoch_jd_tt": s.epoch_jd_tt,
+            # what the catalog said of the star beyond the columns above (Gaia G and BP-RP,
+            # per-band magnitudes with their source and scatter, astrometric errors): rank
+            # --from rebuilds the same star from them
+            "star_extra": dict(s.extra or {}), "star_errors": dict(s.errors or {}),
             "window_start_utc": _utc(self.window_s[0]), "window_end_utc": _utc(self.window_s[1]),
         }
         return row

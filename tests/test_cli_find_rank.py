@@ -162,3 +162,49 @@ def test_rank_bad_input(cli, tmp_path):
     assert res.exit_code == 2 and "not an occplan find JSON" in res.output
     res = cli("rank", "--from", tmp_path / "none.json")
     assert res.exit_code == 2 and "not found" in res.output
+
+
+def test_gaia_only_catalog_keeps_its_photometry_through_rank(files, tmp_path):
+    """A Gaia-style catalog with only G and BP-RP (no V, no K): find derives the bands from
+    Gaia (Riello et al. 2021 transformations) and scores with them; `rank --from` rebuilds the
+    same star from the result (JSON and ECSV) and gets the same scores, and the brighter
+    star scores higher."""
+    from typer.testing import CliRunner
+
+    from occplan.cli.main import build_app
+
+    d, cat, sites = files
+    rows = [line.split(",") for line in cat.read_text().splitlines()[1:]]
+    gaia = tmp_path / "gaia.csv"
+    lines = ["source_id,ra,dec,pmra,pmdec,parallax,ref_epoch,phot_g_mean_mag,bp_rp"]
+    for (sid, ra, dec, *_rest), g in zip(rows, (9.0, 13.0, 11.0)):
+        lines.append(f"{sid},{ra},{dec},0,0,0,2027.45,{g},1.1")
+    # the first star's twin, four magnitudes fainter: the same chord, fewer photons
+    sid, ra, dec, *_rest = rows[0]
+    lines.append(f"{sid}0,{ra},{dec},0,0,0,2027.45,13.0,1.1")
+    gaia.write_text("\n".join(lines) + "\n")
+    app, runner = build_app(), CliRunner()
+    scores = {}
+    for fmt in ("json", "ecsv"):
+        out = tmp_path / f"found.{fmt}"
+        res = runner.invoke(app, ["find", "--catalog", str(gaia), "--start", START, "--end", END,
+                                  "--sites", str(sites), "--format", fmt, "--out", str(out)],
+                            catch_exceptions=False)
+        assert res.exit_code == 0, res.output
+        ranked = tmp_path / f"ranked_{fmt}.json"
+        res = runner.invoke(app, ["rank", "--from", str(out), "--format", "json", "--out", str(ranked)],
+                            catch_exceptions=False)
+        assert res.exit_code == 0, res.output
+        scores[fmt] = {(r["star_id"], r["site"]): r["score"] for r in json.loads(ranked.read_text())["rows"]}
+    found_rows = json.loads((tmp_path / "found.json").read_text())["rows"]
+    for r in found_rows:
+        phot = r["star_extra"]["photometry"]
+        assert {"V", "I", "K"} <= set(phot) and "Riello" in phot["I"]["source"]
+        assert r["vmag"] == pytest.approx(phot["V"]["mag"])  # V derived from Gaia, said so
+        assert scores["json"][(r["star_id"], r["site"])] == pytest.approx(r["score"], rel=1e-9)
+    assert scores["json"] == pytest.approx(scores["ecsv"], rel=1e-9)
+    pairs = [(r["score"], next(t["score"] for t in found_rows
+                                if t["star_id"] == r["star_id"] + "0" and t["site"] == r["site"]))
+             for r in found_rows if r["star_id"] == rows[0][0]]
+    assert pairs and all(bright >= faint for bright, faint in pairs)
+    assert any(bright > faint for bright, faint in pairs)
