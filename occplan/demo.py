@@ -10,7 +10,6 @@ from __future__ import annotations
 import json
 import os
 import shutil
-import sys
 import tempfile
 import time
 import tomllib
@@ -196,7 +195,8 @@ def run_demo(out_dir: str | Path = "occplan-demo-output", overwrite: bool = Fals
     """
     from .tables import _terminate_cleanly
 
-    log = log or (lambda msg: print(msg, file=sys.stderr))
+    if log is None:
+        from .log import note as log
     started = time.perf_counter()
     here = scenario_dir()
     camp = tomllib.loads((here / "campaign.toml").read_text(encoding="utf-8"))

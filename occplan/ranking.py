@@ -47,7 +47,6 @@ v1 = 100/125 = 0.8, v2 = 25/50 = 0.5, d = (1 - cos 150 deg)/2 = 0.933: 0.8 + 0.4
 from __future__ import annotations
 
 import math
-import sys
 import tomllib
 from dataclasses import dataclass, field
 from importlib import resources
@@ -545,8 +544,10 @@ def read_find_result(path: str | Path) -> tuple[list[dict], dict]:
 
 
 def print_note(text: str) -> None:
-    """A log line on stderr (never on stdout, which carries the table)."""
-    print(text, file=sys.stderr)
+    """A note on stderr through occplan's logger (never on stdout, which carries the table)."""
+    from .log import note
+
+    note(text)
 
 
 def reevaluate_rows(rows: list[dict], meta: dict, *, settings: RankSettings = RankSettings(),

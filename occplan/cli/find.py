@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from enum import StrEnum
 from typing import Annotated, Optional
 
 import typer
@@ -23,7 +24,12 @@ IncludeMisses = Annotated[bool, typer.Option("--include-misses", help="Keep site
 Weights = Annotated[Optional[str], typer.Option("--weights", help="Ranking weights TOML (any subset of occplan/data/ranking_weights.toml).")]
 NoZones = Annotated[bool, typer.Option("--no-zones", help="Skip the zone evaluation and scores (faster; then rank needs the search options again, not --from).")]
 Chart = Annotated[Optional[str], typer.Option("--chart", help="Also draw the season chart into this .png/.pdf/.svg file.")]
-Engine = Annotated[str, typer.Option("--engine", help="Where the catalog search runs: local (this process) or dask (per catalog piece on a Dask cluster).")]
+class EngineName(StrEnum):
+    local = "local"
+    dask = "dask"
+
+
+Engine = Annotated[EngineName, typer.Option("--engine", help="Where the catalog search runs: local (this process) or dask (per catalog piece on a Dask cluster).")]
 Scheduler = Annotated[Optional[str], typer.Option("--scheduler", help="Dask scheduler address for --engine dask, e.g. tcp://host:8786 (default: a local cluster of 2 workers).")]
 Progress = Annotated[Optional[bool], typer.Option("--progress/--no-progress", help="Progress bars on stderr (default: when stderr is a terminal).")]
 

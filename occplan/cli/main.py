@@ -33,8 +33,49 @@ def _usage_error(path: str, exc) -> None:
     raise typer.Exit(2)
 
 
+# readable placeholders in --help (an option's own metavar or a choice list wins)
+_METAVARS = {
+    "--star": '"RA DEC"', "--lat": "DEG", "--lon": "DEG", "--height": "M", "--start": "UTC",
+    "--end": "UTC", "--step": "SEC", "--cadence": "SEC", "--aperture": "M", "--pm-ra": "MAS/YR",
+    "--pm-dec": "MAS/YR", "--parallax": "MAS", "--rv": "KM/S", "--star-epoch": "EPOCH",
+    "--vmag": "MAG", "--kmag": "MAG", "--rmin": "KM", "--rmax": "KM", "--sigma": "G/CM2",
+    "--viscosity": "CM2/S", "--min-snr": "SNR", "--star-error-mas": "MAS",
+    "--planet-error-km": "KM", "--pole-error-deg": "DEG", "--min-altitude": "DEG",
+    "--sun-limit": "DEG", "--resolution": "DEG", "--scheduler": "ADDRESS",
+}
+_TYPE_METAVARS = {"int": "N", "float": "NUMBER", "str": "TEXT", "Path": "FILE", "path": "FILE"}
+
+
+def _readable_metavars(params) -> None:
+    for p in params:
+        if getattr(p, "is_flag", False) or getattr(p, "count", False):
+            p.metavar = ""  # a switch takes no value
+            continue
+        desc = getattr(p, "type_descriptor", None)
+        if p.metavar is not None or desc is None or desc.is_choice:
+            continue
+        name = next((o for o in getattr(p, "opts", ()) if o.startswith("--")), "")
+        if name in _METAVARS:
+            p.metavar = _METAVARS[name]
+            continue
+        try:
+            kind = p.display_type(None).strip("<>")
+        except Exception:  # an unusual type: keep typer's own label
+            continue
+        many = kind.startswith("list[")
+        kind = kind[5:-1] if many else kind
+        if kind in _TYPE_METAVARS:
+            p.metavar = _TYPE_METAVARS[kind] + ("..." if many else "")
+
+
 class _OneLineCommand(TyperCommand):
-    """A command whose usage errors (unknown option, bad value) are one line, exit 2."""
+    """A command whose usage errors (unknown option, bad value) are one line, exit 2, and
+    whose help shows readable placeholders."""
+
+    def get_params(self, ctx):
+        params = super().get_params(ctx)
+        _readable_metavars(params)  # the help and completion options are added here
+        return params
 
     def make_context(self, info_name, args, parent=None, **extra):
         try:
@@ -46,6 +87,11 @@ class _OneLineCommand(TyperCommand):
 
 class _OneLineGroup(TyperGroup):
     """The ``occplan`` group: usage errors, unknown commands included, are one line."""
+
+    def get_params(self, ctx):
+        params = super().get_params(ctx)
+        _readable_metavars(params)  # the help and completion options are added here
+        return params
 
     def make_context(self, info_name, args, parent=None, **extra):
         try:
@@ -71,7 +117,7 @@ def build_app() -> typer.Typer:
         name="occplan",
         help="Plan stellar occultations by planetary rings (offline, from a JPL ephemeris).",
         no_args_is_help=True,
-        add_completion=False,
+        add_completion=True,
         pretty_exceptions_enable=False,
         cls=_OneLineGroup,
     )
@@ -81,8 +127,15 @@ def build_app() -> typer.Typer:
         version: bool = typer.Option(
             False, "--version", callback=_version, is_eager=True, help="Print the version and exit."
         ),
+        verbose: bool = typer.Option(False, "--verbose", "-v", help="Also print detail (debug notes)."),
+        quiet: bool = typer.Option(False, "--quiet", "-q", help="Print only errors and the results."),
     ):
         """Plan stellar occultations by planetary rings."""
+        import logging
+
+        from ..log import configure
+
+        configure(logging.WARNING if quiet else logging.DEBUG if verbose else logging.INFO)
 
     for name in COMMAND_MODULES:
         importlib.import_module(f"occplan.cli.{name}").register(app)

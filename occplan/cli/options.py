@@ -10,12 +10,38 @@ import functools
 import math
 import sys
 import warnings
+from enum import StrEnum
 from pathlib import Path
 from typing import Annotated, Optional
 
 import typer
 
 from ..errors import OccplanError
+
+# --- choices (the help lists them; typer refuses anything else in one line) ------------------
+
+
+class OutputFormat(StrEnum):
+    table = "table"
+    csv = "csv"
+    ecsv = "ecsv"
+    json = "json"
+
+
+class BandName(StrEnum):
+    V = "V"
+    R = "R"
+    I = "I"  # noqa: E741 - the photometric band's name
+    J = "J"
+    H = "H"
+    K = "K"
+
+
+class LuminosityChoice(StrEnum):
+    auto = "auto"
+    dwarf = "dwarf"
+    giant = "giant"
+
 
 # --- body -----------------------------------------------------------------------------------
 Body = Annotated[str, typer.Option("--body", help="Ringed body: saturn, uranus, neptune, jupiter, or a body TOML file.")]
@@ -52,7 +78,7 @@ NoDeflection = Annotated[bool, typer.Option("--no-deflection", help="Switch off 
 Barycentre = Annotated[bool, typer.Option("--barycentre", help="Use the system barycentre as planet centre, uncorrected (for comparisons).")]
 
 # --- output ---------------------------------------------------------------------------------
-Format = Annotated[str, typer.Option("--format", help="Output format: table, csv, ecsv or json.")]
+Format = Annotated[OutputFormat, typer.Option("--format", help="Output format.")]
 Out = Annotated[Optional[Path], typer.Option("--out", help="Write the output to this file instead of stdout.")]
 Overwrite = Annotated[bool, typer.Option("--overwrite", help="Allow --out to replace an existing file.")]
 
@@ -111,15 +137,20 @@ def user_errors(func):
 
     return wrapper
 
+
+def plain(value):
+    """An option's plain value (an enum choice as its text; None stays None)."""
+    return None if value is None else (value.value if isinstance(value, StrEnum) else value)
+
 # --- telescope and evaluation ----------------------------------------------------------------
 Telescope = Annotated[Optional[Path], typer.Option("--telescope", help="Telescope/camera TOML profile (aperture_m, throughput, read_noise_e, cadence_s, band, ...); default: a generic 1-m fast CMOS.")]
 Cadence = Annotated[Optional[float], typer.Option("--cadence", help="Camera sampling interval, s (overrides the profile).")]
-Band = Annotated[Optional[str], typer.Option("--band", help="Photometric band V, R, I, J, H or K (overrides the profile).")]
+Band = Annotated[Optional[BandName], typer.Option("--band", help="Photometric band (overrides the profile; the profile's camera must work in it).")]
 Aperture = Annotated[Optional[float], typer.Option("--aperture", help="Telescope aperture diameter, m (overrides the profile).")]
 SamplesPerWavelength = Annotated[Optional[float], typer.Option("--samples-per-wavelength", help="Samples per shortest wavelength for the required cadence (default 4; 2 is the Nyquist bound).")]
 MaxOrder = Annotated[int, typer.Option("--max-order", help="Highest resonance order considered (1..3).")]
 Sigma = Annotated[Optional[float], typer.Option("--sigma", help="Ring surface density, g/cm^2, everywhere (overrides the body file's region values).")]
-LuminosityClass = Annotated[str, typer.Option("--luminosity-class", help="Star's class for the diameter relation: dwarf, giant or auto (from V-K).")]
+LuminosityClass = Annotated[LuminosityChoice, typer.Option("--luminosity-class", help="Star's class for the diameter relation (auto: from the parallax when significant, else from V-K).")]
 StarErrorMas = Annotated[Optional[float], typer.Option("--star-error-mas", help="1-sigma error of the star's position at the event epoch, mas (default: the catalogue's Gaia errors, when given).")]
 PlanetErrorKm = Annotated[Optional[float], typer.Option("--planet-error-km", help="1-sigma error of the planet's ephemeris position in the sky plane, km (default: occplan/data/ephemeris_uncertainty.toml).")]
 PoleErrorDeg = Annotated[Optional[float], typer.Option("--pole-error-deg", help="1-sigma error of the ring-plane pole, deg (default: occplan/data/ephemeris_uncertainty.toml).")]

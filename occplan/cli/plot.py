@@ -62,4 +62,6 @@ def register(app: typer.Typer) -> None:
 
         report = common.event_report(locals())
         for path in plotting.save_event_figures(report, out, overwrite=overwrite, panel=panel):
-            typer.echo(f"wrote {path}", err=True)
+            from ..log import note
+
+            note(f"wrote {path}")
