@@ -38,7 +38,11 @@ from .coverage import SkyScene, far_side, sides
 from .ephemeris import time_from_tdb_s, utc_iso
 from .errors import InputError, OutputExistsError
 
-STATUS_COLOURS = {"resolvable": "#2e9e44", "unresolved": "#f08c1a", "hidden": "#a3a3a3"}
+# Okabe & Ito (2008) colour-blind-safe palette: blue, orange, grey
+STATUS_COLOURS = {"resolvable": "#0072b2", "unresolved": "#e69f00", "hidden": "#a3a3a3"}
+# distinct colours for narrow rings (matplotlib's tableau-colorblind10)
+NARROW_RING_COLOURS = ("#006BA4", "#FF800E", "#ABABAB", "#595959", "#5F9ED1", "#C85200",
+                       "#898989", "#A2C8EC", "#FFBC79", "#CFCFCF")
 STATUS_LABELS = {"resolvable": "resolvable",
                  "unresolved": "not resolvable (resolution or SNR)",
                  "hidden": "hidden by the planet or not observable"}
@@ -138,12 +142,19 @@ def _zone_time(zone) -> float:
 
 
 def _region_colours(body) -> dict:
-    """A slate-blue shade per ring region, darker for larger typical optical depth."""
+    """A slate-blue shade per broad ring region, darker for larger typical optical depth; a
+    distinct colour-blind-safe colour per narrow ring."""
     from matplotlib import colormaps
 
     cmap = colormaps["Blues"]
     out = {}
+    narrow = 0
     for reg in body.rings:
+        lo, hi = getattr(reg, "edge_a_km", (reg.inner_km, reg.outer_km))
+        if hi - lo < 200.0:  # a narrow ring: its own colour, so neighbours stay apart
+            out[reg.name] = NARROW_RING_COLOURS[narrow % len(NARROW_RING_COLOURS)]
+            narrow += 1
+            continue
         tau = reg.optical_depth if np.isfinite(reg.optical_depth) and reg.optical_depth > 0 else 1e-3
         level = float(np.clip((math.log10(tau) + 3.0) / 3.5, 0.0, 1.0))  # tau 1e-3 .. 3
         out[reg.name] = cmap(0.22 + 0.6 * level)

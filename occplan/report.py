@@ -150,11 +150,16 @@ def write_report(out_dir: str | Path, campaign: dict, bodies: list[dict]) -> tup
     style = ("body{font-family:sans-serif;max-width:1100px;margin:2em auto;padding:0 1em}"
              "table{border-collapse:collapse;font-size:90%}td,th{border:1px solid #bbb;"
              "padding:2px 6px;text-align:right}pre{background:#f6f6f6;padding:8px;"
-             "overflow-x:auto;font-size:80%}img{max-width:100%}")
+             "overflow-x:auto;font-size:80%}img{max-width:100%;height:auto}"
+             ".scroll{overflow-x:auto;-webkit-overflow-scrolling:touch}"
+             "@media (max-width:600px){body{margin:0.5em auto}table{font-size:80%}}")
     html_path.write_text(
-        "<!DOCTYPE html><html><head><meta charset='utf-8'><title>"
+        "<!DOCTYPE html><html><head><meta charset='utf-8'>"
+        "<meta name='viewport' content='width=device-width, initial-scale=1'><title>"
         f"{html.escape(campaign['name'])}</title><style>{style}</style></head><body>"
-        + "\n".join(html_parts) + "</body></html>\n", encoding="utf-8")
+        # wide tables scroll sideways in their own box on a phone
+        + "\n".join(html_parts).replace("<table", "<div class='scroll'><table")
+        .replace("</table>", "</table></div>") + "</body></html>\n", encoding="utf-8")
     return md_path, html_path
 
 

@@ -34,13 +34,20 @@ def season_chart(rows: list[dict], ax=None, aspect=None, title: str | None = Non
     -------
     matplotlib.axes.Axes
     """
-    import matplotlib
 
     if ax is None:
         ax = _figure().add_subplot()
     sites = sorted({r["site"] for r in rows})
-    cmap = matplotlib.colormaps["tab10"]
+    # colour-blind-safe colours (matplotlib's tableau-colorblind10) and a marker shape per site
+    palette = ("#006BA4", "#FF800E", "#595959", "#5F9ED1", "#C85200", "#898989", "#A2C8EC",
+               "#FFBC79", "#ABABAB", "#CFCFCF")
+    shapes = ("o", "^", "D", "v", "P", "X", "<", ">", "h", "*")
+
+    def cmap(i):  # the site's colour
+        return palette[i % len(palette)]
+
     for i, site in enumerate(sites):
+        shape = shapes[i % len(shapes)]
         sel = [r for r in rows if r["site"] == site]
         x = [_date(r["closest_approach_utc"]) for r in sel]
         unknown = np.array([r.get("observability") == "unknown" for r in sel], dtype=bool)
@@ -50,21 +57,33 @@ def season_chart(rows: list[dict], ax=None, aspect=None, title: str | None = Non
         x, y = np.array(x, dtype=object), np.array(y, dtype=float)
         zero = (y == 0) & ~unknown
         known = ~zero & ~unknown
-        ax.scatter(x[known], y[known], s=size[known], color=cmap(i % 10), label=site, alpha=0.8,
-                   edgecolor="k", linewidth=0.4, zorder=3)
+        ax.scatter(x[known], y[known], s=size[known], color=cmap(i), marker=shape, label=site,
+                   alpha=0.85, edgecolor="k", linewidth=0.4, zorder=3)
         # score 0: nothing usable (daylight, planet too low or hidden): hollow markers
-        ax.scatter(x[zero], y[zero], s=size[zero], facecolor="none", edgecolor=cmap(i % 10),
-                   linewidth=1.0, zorder=3)
+        ax.scatter(x[zero], y[zero], s=size[zero], marker=shape, facecolor="none",
+                   edgecolor=cmap(i), linewidth=1.0, zorder=3)
         # observability not evaluated (geocentre, spacecraft): the potential score, squares
-        ax.scatter(x[unknown], y[unknown], s=size[unknown], marker="s", facecolor="none",
-                   edgecolor=cmap(i % 10), linewidth=1.0, zorder=3,
+        ax.scatter(x[unknown], y[unknown], s=size[unknown], marker=shape, facecolor="none",
+                   edgecolor=cmap(i), linewidth=1.0, linestyle="--", zorder=3,
                    label=site if not np.any(known) else None)
     best = sorted(rows, key=lambda r: -(r.get("score") or 0.0))[:max(label_top, 0)]
+    placed = []  # label boxes in display pixels: a label that would overlap one is moved up
+    ax.figure.canvas.draw()
     for k, r in enumerate(best):
         sid = str(r["star_id"])
         short = sid if len(sid) <= 8 else "\u2026" + sid[-6:]
-        ax.annotate(f"#{k + 1} {short}", (_date(r["closest_approach_utc"]), r.get("score") or 0.0),
-                    textcoords="offset points", xytext=(5, 3), fontsize=7)
+        xy = (_date(r["closest_approach_utc"]), r.get("score") or 0.0)
+        dy = 3
+        for _ in range(12):
+            text = ax.annotate(f"#{k + 1} {short}", xy, textcoords="offset points",
+                               xytext=(5, dy), fontsize=7,
+                               arrowprops={"arrowstyle": "-", "lw": 0.4, "color": "0.5"} if dy > 3 else None)
+            box = text.get_window_extent(renderer=ax.figure.canvas.get_renderer())
+            if not any(box.overlaps(b) for b in placed):
+                break
+            text.remove()
+            dy += 9
+        placed.append(box)
     ax.set_xlabel("closest approach (UTC)")
     ax.set_ylabel("score (resolved-feature equivalents)")
     top = max([r.get("score") or 0.0 for r in rows] + [r.get("potential_score") or 0.0 for r in rows]
@@ -74,8 +93,8 @@ def season_chart(rows: list[dict], ax=None, aspect=None, title: str | None = Non
     if any(not (r.get("score") or 0.0) and r.get("observability") != "unknown" for r in rows):
         ax.scatter([], [], s=40, facecolor="none", edgecolor="0.3", label="score 0 (not observable)")
     if any(r.get("observability") == "unknown" for r in rows):
-        ax.scatter([], [], s=40, marker="s", facecolor="none", edgecolor="0.3",
-                   label="observability unknown: potential score")
+        ax.scatter([], [], s=40, facecolor="none", edgecolor="0.3", linestyle="--",
+                   label="observability unknown: potential score (dashed)")
     handles, labels = ax.get_legend_handles_labels()
     if aspect is not None:
         times, b_deg = aspect

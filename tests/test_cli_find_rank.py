@@ -121,7 +121,7 @@ def test_csv_and_table(cli, files):
     res = cli("find", "--catalog", cat, "--start", START, "--end", END, "--geocentre",
               "--no-zones", "--format", "csv")
     assert res.exit_code == 0, res.output
-    header = res.output.splitlines()[0].split(",")
+    header = res.stdout.splitlines()[0].split(",")
     assert header[:5] == ["star_id", "body", "site", "closest_approach_utc", "min_ring_radius_km"]
     assert "zones" not in header
     res = cli("find", "--catalog", cat, "--start", START, "--end", END, "--geocentre", "--no-zones")
