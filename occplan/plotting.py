@@ -38,12 +38,14 @@ from .coverage import SkyScene, far_side, sides
 from .ephemeris import time_from_tdb_s, utc_iso
 from .errors import InputError, OutputExistsError
 
-# Okabe & Ito (2008) colour-blind-safe palette: blue, orange, grey
-STATUS_COLOURS = {"resolvable": "#0072b2", "unresolved": "#e69f00", "hidden": "#a3a3a3"}
+# Okabe & Ito (2008) colour-blind-safe palette: blue, sky blue, orange, grey
+STATUS_COLOURS = {"resolvable": "#0072b2", "located": "#56b4e9", "unresolved": "#e69f00",
+                  "hidden": "#a3a3a3"}
 # distinct colours for narrow rings (matplotlib's tableau-colorblind10)
 NARROW_RING_COLOURS = ("#006BA4", "#FF800E", "#ABABAB", "#595959", "#5F9ED1", "#C85200",
                        "#898989", "#A2C8EC", "#FFBC79", "#CFCFCF")
 STATUS_LABELS = {"resolvable": "resolvable",
+                 "located": "located, profile not resolved",
                  "unresolved": "not resolvable (resolution or SNR)",
                  "hidden": "hidden by the planet or not observable"}
 DISK_COLOUR, LIMB_COLOUR = "#ead9ae", "#7d6a3c"
@@ -104,11 +106,17 @@ def zone_name(feat) -> str:
 
 
 def zone_status(zone) -> str:
-    """'hidden' (planet hides the star or the site cannot observe), 'resolvable' or
-    'unresolved'."""
+    """'hidden' (planet hides the star or the site cannot observe), 'resolvable', 'located'
+    (an edge or narrow ring whose radius the chord locates without resolving its profile:
+    the ranking's location credit) or 'unresolved'."""
     if zone.behind_planet or zone.usable is False:
         return "hidden"
-    return "resolvable" if zone.resolvable else "unresolved"
+    if zone.resolvable:
+        return "resolvable"
+    if (zone.feature.feature in ("edge", "narrow ring") and not zone.partial
+            and np.isfinite(getattr(zone, "location_sigma_km", float("nan")))):
+        return "located"
+    return "unresolved"
 
 
 def _ranked_resonances(report, limit: int | None, per_satellite: float = 1.0):
@@ -643,6 +651,8 @@ def _cell_text(z, status) -> str:
     txt = f"dt ≤ {dt:.2g} s, res {z.achievable_resolution_km:.1f} km"
     if z.usable is False:
         return "not observable\n" + txt
+    if status == "located":
+        return f"{txt}\nradius to {z.location_sigma_km:.2g} km"
     if status == "unresolved" and z.reasons:
         why = z.reasons[0]
         if why.startswith("achievable"):

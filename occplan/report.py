@@ -163,7 +163,29 @@ def write_report(out_dir: str | Path, campaign: dict, bodies: list[dict]) -> tup
     return md_path, html_path
 
 
+EMBED_MAX_WIDTH_PX = 1000  # enough for a laptop screen; the link opens the full figure
+EMBED_COLOURS = 256
+
+
+def embedded_png(path: Path) -> bytes:
+    """A figure made small enough to embed: at most EMBED_MAX_WIDTH_PX wide and reduced to an
+    adaptive 256-colour palette (line plots need no more), as PNG.  The full-resolution file
+    stays next to the report."""
+    import io
+
+    from PIL import Image
+
+    with Image.open(path) as im:
+        im = im.convert("RGB")
+        if im.width > EMBED_MAX_WIDTH_PX:
+            height = round(im.height * EMBED_MAX_WIDTH_PX / im.width)
+            im = im.resize((EMBED_MAX_WIDTH_PX, height), Image.Resampling.LANCZOS)
+        buf = io.BytesIO()
+        im.quantize(colors=EMBED_COLOURS).save(buf, format="PNG", optimize=True)
+        return buf.getvalue()
+
+
 def _img(out: Path, rel: str, alt: str) -> str:
-    data = base64.b64encode((out / rel).read_bytes()).decode("ascii")
+    data = base64.b64encode(embedded_png(out / rel)).decode("ascii")
     return (f'<p><a href="{html.escape(rel)}"><img alt="{html.escape(alt)}" '
             f'src="data:image/png;base64,{data}"></a></p>')

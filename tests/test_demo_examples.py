@@ -55,6 +55,9 @@ def test_demo_report_references_existing_figures(demo_out):
     for ref in refs:
         assert (out / ref).exists(), ref
     assert html.count("data:image/png;base64,") >= 3  # figures embedded: one self-contained page
+    # readable on a phone and light enough to send (common practice for a mailed report)
+    assert "name='viewport'" in html and "class='scroll'" in html
+    assert (out / "report.html").stat().st_size < 2_000_000
     md = (out / "report.md").read_text()
     for ref in re.findall(r"\]\(([^)]+)\)", md):
         assert (out / ref).exists(), ref

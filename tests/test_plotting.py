@@ -263,7 +263,7 @@ def test_coverage_chart_cells_follow_zone_status(report):
             assert status == plotting.zone_status(z)
             assert to_hex(cell.get_facecolor()) == plotting.STATUS_COLOURS[status]
     legend = [t.get_text() for t in ax.get_legend().get_texts()]
-    assert len(legend) == 4 and "resolvable" in legend
+    assert len(legend) == len(plotting.STATUS_COLOURS) + 1 and "resolvable" in legend
     # radii increase upward
     radii = [float(t.get_text().rsplit("  ", 1)[1].replace(",", "").split()[0]) for t in rows]
     assert radii == sorted(radii)
