@@ -172,7 +172,7 @@ def aspect(body, observer: Observer, window, step_s: float = 3600.0, kernels=Non
            barycentre_only: bool = False) -> tuple[list, dict]:
     """How the ring system looks from an observer: B, the Sun's B', P, distance, radii.
 
-    B = asin(n.(O-P)/|O-P|) (planetocentric latitude of the observer w.r.t. the ring plane);
+    ``B = asin(n.(O-P) / abs(O-P))`` (planetocentric latitude of the observer w.r.t. the ring plane);
     B' the same for the Sun at the planet's light-time-corrected epoch; P the position angle
     of the projected pole from celestial north through east, for the direction to the planet.
     Accepts astropy objects as :func:`chord` does.
