@@ -155,8 +155,15 @@ def luminosity_class_from_parallax(vmag, kmag, parallax_mas, parallax_error_mas)
     cfg = _data()["luminosity_class"]
     if vmag is None or kmag is None or parallax_mas is None:
         return None, "no parallax"
+    assumed = ""
     if parallax_error_mas is None or not np.isfinite(parallax_error_mas) or parallax_error_mas <= 0:
-        return None, "parallax error unknown: the parallax is not used for the luminosity class"
+        # no error column: a Gaia-class parallax error is assumed (the catalogue's own would
+        # be better); a parallax that is significant even then still says dwarf or giant
+        parallax_error_mas = float(cfg["assumed_parallax_error_mas"])
+        assumed = f" (error not given: {parallax_error_mas:g} mas assumed)"
+        if not float(parallax_mas) / parallax_error_mas >= float(cfg["min_parallax_over_error"]):
+            return None, (f"parallax {float(parallax_mas):.3f} mas without an error{assumed}: too "
+                          "uncertain for the luminosity class")
     ratio = float(parallax_mas) / float(parallax_error_mas)
     need = float(cfg["min_parallax_over_error"])
     if ratio < need:
@@ -172,6 +179,6 @@ def luminosity_class_from_parallax(vmag, kmag, parallax_mas, parallax_error_mas)
     offset = float(cfg["giant_offset_mag"])
     cls = "giant" if abs_k < dwarf_k - offset else "dwarf"
     return cls, (f"luminosity class {cls} from the parallax: M_K = {abs_k:.2f} "
-                 f"(parallax {float(parallax_mas):.3f} +- {float(parallax_error_mas):.3f} mas), "
+                 f"(parallax {float(parallax_mas):.3f} +- {float(parallax_error_mas):.3f} mas{assumed}), "
                  f"dwarf sequence M_K = {dwarf_k:.2f} at V-K = {vk:.2f}; giant if more than "
                  f"{offset:g} mag brighter (Pecaut & Mamajek 2013 sequence; no extinction)")

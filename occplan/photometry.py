@@ -246,7 +246,10 @@ def stellar_angular_diameter_mas(vmag: float, kmag: float, luminosity_class: str
     note = ""
     if cls == "auto":
         cls = "giant" if vk > AUTO_GIANT_VK else "dwarf"
-        note = (f"luminosity class not given: V-K = {vk:.2f} {'>' if cls == 'giant' else '<='} "
+        shown = f"{vk:.2f}"
+        if float(shown) == AUTO_GIANT_VK:  # never print "3.70 > 3.7": show the digits that decide
+            shown = f"{vk:.4f}"
+        note = (f"luminosity class not given: V-K = {shown} {'>' if cls == 'giant' else '<='} "
                 f"{AUTO_GIANT_VK} taken as a {cls} (colour alone cannot tell; pass it if known)")
     if cls == "dwarf":
         log_theta = _KERVELLA_A * vk + _KERVELLA_B - 0.2 * float(k)

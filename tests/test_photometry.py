@@ -295,3 +295,20 @@ def test_a_camera_is_not_asked_for_a_band_it_cannot_see(tmp_path):
     bare.write_text('name = "unknown camera"\nband = "K"\n')
     t = load_telescope(bare, band="V")
     assert t.band == "V" and t.bands is None and "still the profile's" in t.sources["band"]
+
+
+def test_parallax_without_its_error_and_the_colour_boundary_note():
+    """A parallax with no error column is used only when it would be significant (5 sigma,
+    common practice) at a conservative 0.2 mas error (Gaia DR3 errors are smaller for stars
+    bright enough to occult; Lindegren et al. 2021, from memory); and the colour rule's note
+    never prints a self-contradictory comparison."""
+    from occplan.gaia_photometry import luminosity_class_from_parallax
+    from occplan.photometry import stellar_angular_diameter_mas
+
+    # K = 8.3 at 2 mas: M_K = 8.3 + 5 log10(0.02) = -0.19, 4+ mag above the K0V dwarf (M_K ~4)
+    cls, why = luminosity_class_from_parallax(10.9, 8.3, 2.0, None)
+    assert cls == "giant" and "0.2 mas assumed" in why
+    cls, why = luminosity_class_from_parallax(10.9, 8.3, 0.887, None)
+    assert cls is None and "without an error" in why
+    note = stellar_angular_diameter_mas(10.0, 10.0 - 3.70004, "auto").note
+    assert "3.7000 > 3.7" in note and "3.70 > 3.7" not in note
