@@ -481,11 +481,26 @@ def read_catalog_table(path: str | Path, column_map: dict | None = None,
     distant stars of occultation work).  Unparsable numbers and missing columns raise
     :class:`DataFileError`.
     """
-    from .gaia_photometry import best_magnitude, relations
     from .schema import check_input_path
 
     p = check_input_path(path, "catalog")
-    table = _read_table(p)
+    return star_table(_read_table(p), column_map, allow_no_motion, where=str(p))
+
+
+def star_table(table, column_map: dict | None = None, allow_no_motion: bool = False,
+               where: str = "(table)", empty_ok: bool = False) -> StarTable:
+    """A catalog already in memory (an astropy Table, or any mapping of column names to
+    arrays) as a :class:`StarTable`, with every rule of :func:`read_catalog_table`: units,
+    Gaia photometry, astrometric errors, skipped rows.  The one path every reader takes
+    (files, partitioned Parquet pieces).  ``empty_ok``: a piece with no usable star gives an
+    empty table instead of an error."""
+    from astropy.table import Table
+
+    from .gaia_photometry import best_magnitude, relations
+
+    if not isinstance(table, Table):
+        table = Table(dict(table))
+    p = where
     for name in table.colnames:  # a UTF-8 byte-order mark read as part of the first name
         if name.startswith("\ufeff"):
             table.rename_column(name, name.removeprefix("\ufeff"))
@@ -514,13 +529,17 @@ def read_catalog_table(path: str | Path, column_map: dict | None = None,
                             "NAME=COLUMN)")
     n = len(table)
     report = CatalogReport(path=str(p), rows_read=n)
-    if n == 0:
+    if n == 0 and not empty_ok:
         raise DataFileError(f"catalog {str(p)!r} has no rows")
 
     ids_col = table[column_name("source_id")]
     id_mask = np.asarray(np.ma.getmaskarray(ids_col)) if hasattr(ids_col, "mask") else np.zeros(n, bool)
-    ids = np.array([(v.decode("utf-8", "replace") if isinstance(v, bytes) else str(v)).strip()
-                    for v in np.ma.getdata(ids_col)], dtype=object)
+    raw = np.ma.getdata(ids_col)
+    if np.asarray(raw).dtype.kind in "iu":  # integer ids (Gaia source_id): no per-row work
+        ids = np.asarray(raw).astype(str).astype(object)
+    else:
+        ids = np.array([(v.decode("utf-8", "replace") if isinstance(v, bytes) else str(v)).strip()
+                        for v in raw], dtype=object)
     ids[id_mask] = ""
 
     no_unit = []
@@ -599,7 +618,7 @@ def read_catalog_table(path: str | Path, column_map: dict | None = None,
     idx = np.nonzero(keep)[0]
     report.skipped.sort(key=lambda item: item[0])
     report.stars = int(idx.size)
-    if idx.size == 0:
+    if idx.size == 0 and not empty_ok:
         raise DataFileError(f"catalog {str(p)!r}: no usable star ({report.summary()})")
     return StarTable(
         source_id=ids[idx], ra_deg=ra[idx], dec_deg=dec[idx], pm_ra_mas_yr=pmra[idx],

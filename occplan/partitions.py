@@ -193,36 +193,14 @@ def read_piece(piece: Piece, column_map: dict, allow_no_motion: bool, chunk_rows
 
 
 def _stars(batch, column_map, allow_no_motion):
-    """A pyarrow RecordBatch as a StarTable, with the rules of
-    :func:`occplan.catalogs.read_catalog_table` (rows without a position, or without
-    motion unless allowed, are dropped; negative parallax is 0, missing RV 0)."""
-    from .catalogs import CatalogReport, StarTable
+    """A pyarrow RecordBatch as a StarTable through :func:`occplan.catalogs.star_table`, the
+    one path every catalog takes (units at their documented defaults, Gaia photometry,
+    astrometric errors, the same skip rules)."""
+    from astropy.table import Table
 
-    n = batch.num_rows
-    cols = {name: batch.column(i) for i, name in enumerate(batch.schema.names)}
+    from .catalogs import star_table
 
-    def numbers(key, default=np.nan):
-        c = cols.get(column_map.get(key, key))
-        if c is None:
-            return np.full(n, default)
-        return np.asarray(c.to_numpy(zero_copy_only=False), dtype=float)
-
-    ids = cols[column_map.get("source_id", "source_id")].to_numpy(zero_copy_only=False)
-    ra, dec = numbers("ra"), numbers("dec")
-    pmra, pmdec, plx = numbers("pmra"), numbers("pmdec"), numbers("parallax")
-    keep = np.isfinite(ra) & np.isfinite(dec) & (ra >= 0) & (ra < 360) & (np.abs(dec) <= 90)
-    if allow_no_motion:
-        pmra, pmdec, plx = (np.where(np.isfinite(a), a, 0.0) for a in (pmra, pmdec, plx))
-    keep &= np.isfinite(pmra) & np.isfinite(pmdec) & np.isfinite(plx)
-    rv = numbers("radial_velocity", 0.0)
-    epoch = numbers("ref_epoch", DEFAULT_EPOCH_YR)
-    keep &= np.isfinite(epoch)
-    idx = np.nonzero(keep)[0]
-    report = CatalogReport(path="(parquet)", rows_read=n, stars=int(idx.size))
-    return StarTable(
-        source_id=np.asarray(ids, dtype=object)[idx].astype(str).astype(object),
-        ra_deg=ra[idx], dec_deg=dec[idx], pm_ra_mas_yr=pmra[idx], pm_dec_mas_yr=pmdec[idx],
-        parallax_mas=np.maximum(plx[idx], 0.0), rv_km_s=np.nan_to_num(rv[idx]),
-        epoch_jd_tt=2451545.0 + (epoch[idx] - 2000.0) * 365.25,
-        vmag=numbers("vmag")[idx], kmag=numbers("kmag")[idx],
-        gmag=numbers("phot_g_mean_mag")[idx], report=report)
+    cols = {name: batch.column(i).to_numpy(zero_copy_only=False)
+            for i, name in enumerate(batch.schema.names)}
+    return star_table(Table(cols), column_map, allow_no_motion, where="(parquet piece)",
+                      empty_ok=True)

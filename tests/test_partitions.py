@@ -127,3 +127,24 @@ def test_cli_find_on_a_parquet_folder(catalog):
     assert {r["star_id"] for r in out["rows"]} <= {c.star_id for c in ref}
     bad = CliRunner().invoke(build_app(), args + ["--engine", "spark"])
     assert bad.exit_code == 2 and "--engine" in bad.output
+
+
+def test_a_parquet_piece_gets_the_catalog_rules_and_gaia_photometry():
+    """Partition pieces go through the same table-to-stars path as files: Gaia G and BP-RP
+    become V..Ks (Riello et al. 2021 relations), errors are kept, rows without motion are
+    skipped."""
+    import pyarrow as pa
+
+    from occplan.partitions import _stars
+
+    batch = pa.RecordBatch.from_pydict({
+        "source_id": pa.array([1, 2, 3], pa.int64()), "ra": [10.0, 11.0, 12.0],
+        "dec": [5.0, 6.0, 7.0], "pmra": [1.0, None, 0.5], "pmdec": [0.0, 0.0, 0.1],
+        "parallax": [2.0, 1.0, 0.3], "parallax_error": [0.05, 0.05, 0.05],
+        "ra_error": [0.02, 0.02, 0.02], "phot_g_mean_mag": [11.0, 12.0, 13.0],
+        "bp_rp": [1.0, 1.2, 0.8]})
+    stars = _stars(batch, {}, False)
+    assert list(stars.source_id) == ["1", "3"]  # star 2 has no proper motion
+    s = stars.star(0)
+    assert s.extra["photometry"]["V"]["source"].startswith("Gaia")
+    assert s.vmag is not None and s.errors["parallax_error"] == 0.05 and "ra_error" in s.errors
