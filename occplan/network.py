@@ -14,6 +14,12 @@ each request.  Greedy selection of a monotone submodular objective is within a f
 1 - 1/e of the best set (Nemhauser, Wolsey & Fisher 1978); the diversity rule makes the
 feature value submodular in the crossings (each extra crossing's discount only grows as the
 set grows).
+
+Weather: with each station clear independently with probability p (``--clear-sky``, a
+planning assumption), :func:`expected_score` values a set of stations by its expected
+combined score, which credits redundancy: a second station on the same chord is worth the
+events it saves from cloud.  :func:`season_stations` chooses stations for a whole season of
+events (a find result) by the same rules.
 """
 
 from __future__ import annotations
@@ -112,25 +118,108 @@ def evaluate_network(body, star, sites, window_s, *, kernels=None, corrections=N
     return NetworkResult(out, weights)
 
 
-def choose_stations(result: NetworkResult, k: int) -> list[tuple[str, float, float]]:
-    """Greedy choice of k stations by the combined score: [(name, marginal gain, total)]."""
-    chosen: list = []
-    total = 0.0
-    left = [s for s in result.stations if s.records]
-    for _ in range(max(0, int(k))):
-        best, best_total = None, total
-        for st in left:
-            t = combined_score([c for c in result.stations if c.name in {x[0] for x in chosen}] + [st],
-                               result.weights)
-            if best is None or t > best_total + 1e-12:
-                best, best_total = st, t
-        if best is None or best_total <= total + 1e-12:
-            break
-        chosen.append((best.name, best_total - total, best_total))
-        total = best_total
-        left = [s for s in left if s is not best]
+def choose_stations(result: NetworkResult, k: int,
+                    clear_sky: float = 1.0) -> list[tuple[str, float, float]]:
+    """Greedy choice of k stations by the (expected, :func:`expected_score`) combined score:
+    [(name, marginal gain, total)]."""
+    by_name = {s.name: s for s in result.stations if s.records}
+    chosen = greedy_choice(list(by_name), k, lambda names: expected_score(
+        [by_name[n] for n in names], result.weights, clear_sky))
     result.selection = chosen
     return chosen
+
+
+def expected_score(stations, weights: Weights, clear_sky: float = 1.0) -> float:
+    """The combined score a set of stations can expect when each is clear independently with
+    probability ``clear_sky`` (a planning assumption, not a forecast):
+
+        E[F] = sum over subsets T of S of  p^|T| (1 - p)^(|S| - |T|) F(T)
+
+    with F the combined score (:func:`combined_score`).  At p = 1 it is F(S).  A second
+    station on nearly the same chord, which F alone values at almost nothing, is now worth
+    about p (1 - p) F(one station): the chance that it saves an event the first loses to
+    cloud.  Exact enumeration (at most 2^12 subsets)."""
+    stations = list(stations)
+    p = float(clear_sky)
+    if not 0.0 < p <= 1.0:
+        from .errors import InputError
+
+        raise InputError(f"clear-sky probability {clear_sky} must be in (0, 1]")
+    if p == 1.0:
+        return combined_score(stations, weights)
+    if len(stations) > 12:
+        from .errors import InputError
+
+        raise InputError(f"{len(stations)} stations: the expected score enumerates every "
+                         "subset, give at most 12")
+    from itertools import combinations
+
+    n = len(stations)
+    total = 0.0
+    for size in range(1, n + 1):
+        w = p ** size * (1.0 - p) ** (n - size)
+        if w == 0.0:
+            continue
+        for sub in combinations(stations, size):
+            total += w * combined_score(sub, weights)
+    return total
+
+
+def greedy_choice(candidates: list, k: int, objective) -> list[tuple[str, float, float]]:
+    """Greedy choice of up to k candidate names by ``objective(names) -> float``, each with
+    its marginal gain: [(name, gain, total)].  Stops when nothing adds."""
+    chosen: list = []
+    total = 0.0
+    left = list(candidates)
+    for _ in range(max(0, int(k))):
+        best, best_total = None, total
+        for name in left:
+            t = objective([c for c, _, _ in chosen] + [name])
+            if best is None or t > best_total + 1e-12:
+                best, best_total = name, t
+        if best is None or best_total <= total + 1e-12:
+            break
+        chosen.append((best, best_total - total, best_total))
+        total = best_total
+        left.remove(best)
+    return chosen
+
+
+def season_stations(rows: list[dict], k: int, weights: Weights | None = None,
+                    clear_sky: float = 1.0) -> tuple[list, dict]:
+    """Choose k stations for a whole season of events (the rows of a find result, each with
+    its crossing records ``zones``): the objective is the season's total of each event's
+    (expected) combined score over the chosen stations, so a station earns by the events it
+    adds, and by the feature longitudes it adds to events others also see.  Greedy with
+    marginal gains ((1 - 1/e) of the best set: the sum of submodular functions is
+    submodular).  Returns (selection, per-station summary)."""
+    from .ranking import score_zones
+
+    weights = weights or load_weights()
+    events: dict = {}
+    for r in rows:
+        recs = r.get("zones")
+        if recs is None:
+            from .errors import DataFileError
+
+            raise DataFileError("a season choice needs the crossing records of every event "
+                                "(a find result written without --no-zones)")
+        events.setdefault(str(r["star_id"]), {})[str(r.get("site"))] = StationResult(
+            str(r.get("site")), list(recs), {}, str(r.get("telescope") or ""))
+    sites = sorted({s for ev in events.values() for s in ev})
+
+    def season(names) -> float:
+        chosen = set(names)
+        return float(sum(expected_score([st for n, st in ev.items() if n in chosen], weights,
+                                        clear_sky)
+                         for ev in events.values() if chosen & set(ev)))
+
+    summary = {}
+    for site in sites:
+        scored = [score_zones(ev[site].records, weights)["score"] for ev in events.values() if site in ev]
+        summary[site] = {"events": len(scored), "events_scoring": sum(x > 0 for x in scored),
+                         "season_score_alone": season([site])}
+    return greedy_choice(sites, k, season), summary
 
 
 def ring_plane_coverage(result: NetworkResult, body, ax=None):
