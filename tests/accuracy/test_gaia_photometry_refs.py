@@ -103,5 +103,6 @@ def test_luminosity_class_of_known_stars(name, vmag, kmag, parallax_mas, expecte
 def test_insignificant_or_missing_parallax_leaves_the_colour_rule():
     cls, note = luminosity_class_from_parallax(10.8, 8.66, 0.3, 0.1)  # 3 sigma
     assert cls is None and "too uncertain" in note
+    # no error column: 0.2 mas is assumed, and 0.887 mas is then under 5 sigma
     cls, note = luminosity_class_from_parallax(10.8, 8.66, 0.887, None)
-    assert cls is None and "error unknown" in note
+    assert cls is None and "without an error" in note
