@@ -76,6 +76,7 @@ class WorldGrid:
     end_utc: np.ndarray
     resolution_deg: float
     meta: dict = field(default_factory=dict)
+    score: np.ndarray | None = None  # per place with a reference telescope (nan: not evaluated)
 
     def rows(self) -> list[dict]:
         out = []
@@ -90,6 +91,7 @@ class WorldGrid:
                 "ingress_longitude_deg": float(self.ingress_longitude_deg[i]),
                 "egress_longitude_deg": float(self.egress_longitude_deg[i]),
                 "start_utc": self.start_utc[i] or None, "end_utc": self.end_utc[i] or None,
+                "score": (float(self.score[i]) if self.score is not None else float("nan")),
             })
         return out
 
@@ -235,6 +237,52 @@ def coastlines():
     return out
 
 
+def score_places(grid: WorldGrid, *, telescope=None, spacing_deg: float = 15.0,
+                 max_places: int = 60, kernels=None, progress=None) -> WorldGrid:
+    """The event's score (:mod:`occplan.ranking`) for a station with a reference telescope at
+    a sample of the observable grid places: one per ``spacing_deg`` cell (the place nearest
+    the cell's centre), at most ``max_places``.  Each is a full evaluation of that site's
+    chord (features, resolution, SNR with the site's airmass, observability), so the map
+    shows what a station there would record; the other places stay nan.  Sets
+    ``grid.score`` and returns the grid."""
+    from .catalogs import Site
+    from .ephemeris import parse_utc, tdb_s_of
+    from .errors import GeometryError, InputError
+    from .ranking import EVAL_PAD_S, RankSettings, evaluate_and_score
+
+    if not (math.isfinite(spacing_deg) and spacing_deg > 0):
+        raise InputError(f"score spacing {spacing_deg} must be a positive number of degrees")
+    score = np.full(grid.lat_deg.size, np.nan)
+    cells: dict = {}
+    for i in np.nonzero(grid.observable)[0]:
+        key = (math.floor((grid.lat_deg[i] + 90) / spacing_deg),
+               math.floor((grid.lon_deg[i] + 180) / spacing_deg))
+        centre = (-90 + (key[0] + 0.5) * spacing_deg, -180 + (key[1] + 0.5) * spacing_deg)
+        d = math.hypot(grid.lat_deg[i] - centre[0], grid.lon_deg[i] - centre[1])
+        if key not in cells or d < cells[key][0]:
+            cells[key] = (d, i)
+    chosen = sorted(i for _, i in cells.values())[:max(0, int(max_places))]
+    settings = RankSettings(telescope=telescope)
+    for i in chosen:
+        site = Site(f"grid {grid.lat_deg[i]:+.1f} {grid.lon_deg[i]:+.1f}", float(grid.lat_deg[i]),
+                    float(grid.lon_deg[i]), 0.0)
+        a = tdb_s_of(parse_utc(grid.start_utc[i])) - EVAL_PAD_S
+        b = tdb_s_of(parse_utc(grid.end_utc[i])) + EVAL_PAD_S
+        try:
+            _, sc, _ = evaluate_and_score(grid.body, grid.star, site.observer(), (a, b),
+                                          site=site, kernels=kernels, settings=settings)
+            score[i] = sc["score"]
+        except GeometryError:
+            score[i] = 0.0
+        if progress:
+            progress(site.name)
+    grid.score = score
+    grid.meta["score"] = {"places": len(chosen), "spacing_deg": spacing_deg,
+                          "telescope": getattr(telescope, "name", "default profile"),
+                          "rule": "occplan.ranking score of a station at the place (sea level)"}
+    return grid
+
+
 def world_map(grid: WorldGrid, ax=None):
     """Map of the grid: the innermost ring radius each place's chord reaches (colour), the
     places where the event is observable (dots), coastlines.  Returns the Axes."""
@@ -267,6 +315,16 @@ def world_map(grid: WorldGrid, ax=None):
                lw=0.3, zorder=3,
                label=f"observable: planet above {grid.meta['min_altitude_deg']:g} deg, Sun below "
                      f"{grid.meta['sun_limit_deg']:g} deg during the ring crossing")
+    if grid.score is not None and np.any(np.isfinite(grid.score)):
+        ok = np.isfinite(grid.score)
+        top = max(float(np.nanmax(grid.score)), 1e-9)
+        ax.scatter(grid.lon_deg[ok], grid.lat_deg[ok], s=20 + 180 * grid.score[ok] / top,
+                   facecolor="none", edgecolor="#d55e00", lw=1.2, zorder=4,
+                   label=f"score of a station there ({grid.meta['score']['telescope']}); "
+                         f"largest {top:.1f}")
+        for x, y, v in zip(grid.lon_deg[ok], grid.lat_deg[ok], grid.score[ok]):
+            ax.annotate(f"{v:.1f}", (x, y), textcoords="offset points", xytext=(4, 4), fontsize=6,
+                        color="#d55e00", zorder=5)
     ax.set_xlim(-180, 180)
     ax.set_ylim(-90, 90)
     ax.set_aspect("equal")

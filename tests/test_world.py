@@ -95,3 +95,32 @@ def test_where_command_writes_table_map_and_geojson(cli, tmp_path):
     bad = cli("where", "--body", "saturn", "--star", "36.00676 11.44189", "--start", WINDOW[0],
               "--end", WINDOW[1], "--resolution", "0.01")
     assert bad.exit_code == 2 and "limit" in bad.stderr
+
+
+def test_place_scores_with_a_reference_telescope():
+    """Scores on the grid: only at (a thinned sample of) observable places, never elsewhere;
+    each equals the ranking of a station evaluated directly at that place (the ranking's own
+    formula, tests/test_ranking.py); the star's brightness raises them (more photons never
+    lower a score, occplan.ranking)."""
+    import dataclasses
+
+    from occplan.catalogs import Site
+    from occplan.ephemeris import parse_utc, tdb_s_of
+    from occplan.ranking import EVAL_PAD_S, evaluate_and_score
+    from occplan.world import score_places, world_grid
+
+    bright = dataclasses.replace(STAR, vmag=9.8, kmag=6.1)
+    g = score_places(world_grid("saturn", bright, WINDOW, resolution_deg=10.0, step_s=60.0),
+                     spacing_deg=40.0, max_places=4)
+    ok = np.isfinite(g.score)
+    assert 0 < ok.sum() <= 4 and np.all(g.observable[ok])
+    i = int(np.nonzero(ok)[0][0])
+    site = Site("p", float(g.lat_deg[i]), float(g.lon_deg[i]), 0.0)
+    a = tdb_s_of(parse_utc(g.start_utc[i])) - EVAL_PAD_S
+    b = tdb_s_of(parse_utc(g.end_utc[i])) + EVAL_PAD_S
+    _, direct, _ = evaluate_and_score("saturn", bright, site.observer(), (a, b), site=site)
+    assert g.score[i] == pytest.approx(direct["score"], rel=1e-9)
+    faint = score_places(world_grid("saturn", dataclasses.replace(bright, vmag=13.8, kmag=10.1),
+                                    WINDOW, resolution_deg=10.0, step_s=60.0),
+                         spacing_deg=40.0, max_places=4)
+    assert np.all(faint.score[ok] <= g.score[ok] + 1e-12) and np.any(faint.score[ok] < g.score[ok])

@@ -17,11 +17,12 @@ Map = Annotated[Optional[Path], typer.Option("--map", help="Also draw the world 
 GeoJson = Annotated[Optional[Path], typer.Option("--geojson", help="Also write the grid as GeoJSON points (for GIS).")]
 Resolution = Annotated[float, typer.Option("--resolution", help="Grid spacing in latitude and longitude, deg.")]
 MinAltitude = Annotated[float, typer.Option("--min-altitude", help="Lowest planet altitude for an observable place, deg.")]
+ScoreEvery = Annotated[float, typer.Option("--score-every", help="Also score the event for a station with the reference telescope (--telescope) at one observable place per this many degrees (0: no scores; each is a full evaluation, about a second).")]
 SunLimit = Annotated[float, typer.Option("--sun-limit", help="Highest Sun altitude for an observable place, deg (-12: nautical twilight's end).")]
 
 COLUMNS = ["lat_deg", "lon_deg", "crosses_rings", "observable", "min_ring_radius_km",
            "innermost_region", "planet_altitude_min_deg", "sun_altitude_max_deg",
-           "ingress_longitude_deg", "egress_longitude_deg", "start_utc", "end_utc"]
+           "ingress_longitude_deg", "egress_longitude_deg", "start_utc", "end_utc", "score"]
 
 
 def register(app: typer.Typer) -> None:
@@ -35,6 +36,8 @@ def register(app: typer.Typer) -> None:
         start: o.Start = None, end: o.End = None, step: o.Step = 60.0,
         resolution: Resolution = 5.0, min_altitude: MinAltitude = 20.0, sun_limit: SunLimit = -12.0,
         kernel: o.Kernel = None, map_out: Map = None, geojson: GeoJson = None,
+        vmag: o.Vmag = None, kmag: o.Kmag = None, telescope: o.Telescope = None,
+        score_every: ScoreEvery = 0.0,
         fmt: o.Format = "table", out: o.Out = None, overwrite: o.Overwrite = False,
     ):
         """Where on Earth one event is observable and which rings each place's chord reaches.
@@ -54,10 +57,18 @@ def register(app: typer.Typer) -> None:
         if geojson is not None:
             check_out(geojson, overwrite)
         grid = world_grid(common.body(body),
-                          common.star(star, pm_ra, pm_dec, parallax, rv, star_epoch, None, None,
+                          common.star(star, pm_ra, pm_dec, parallax, rv, star_epoch, vmag, kmag,
                                       catalog, star_id),
                           common.window(start, end), resolution_deg=resolution, step_s=step,
                           min_altitude_deg=min_altitude, sun_limit_deg=sun_limit, kernels=kernel)
+        if score_every < 0:
+            raise InputError(f"--score-every {score_every} must be >= 0")
+        if score_every > 0:
+            from ..telescope import load_telescope
+            from ..world import score_places
+
+            score_places(grid, telescope=load_telescope(telescope), spacing_deg=score_every,
+                         kernels=kernel)
         rows = grid.rows()
         shown = rows if fmt != "table" else [r for r in rows if r["observable"]]
         header = (f"# {grid.body.name}: {int(grid.crosses_rings.sum())} of {len(rows)} grid points "
