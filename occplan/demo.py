@@ -158,10 +158,13 @@ def _network_page(out, name, body, rows, star_of, sites, settings, weights):
     picked = choose_stations(res, len(sites))
     rel = f"figures/network_{name}.png"
     save_axes_figure(ring_plane_coverage(res, body), out / rel, overwrite=True)
-    from .world import world_grid, world_map
+    from .telescope import load_telescope
+    from .world import score_places, world_grid, world_map
 
     where_rel = f"figures/where_{name}.png"
     grid = world_grid(body, star, window, resolution_deg=5.0, step_s=60.0)
+    # what a station with the default telescope would score at a few observable places
+    score_places(grid, telescope=load_telescope(), spacing_deg=30.0, max_places=10)
     save_axes_figure(world_map(grid), out / where_rel, overwrite=True)
     by_name = {st.name: st for st in res.stations}
     table = []
