@@ -217,12 +217,22 @@ def node_direction(pole, equator_pole=(0.0, 0.0, 1.0)) -> np.ndarray:
     return v / np.linalg.norm(v)
 
 
+_OFFSETS: dict = {}
+
+
 def reference_offset_rad(orbit: RingOrbit, body) -> float:
     """Angle (rad) to add to the orbit's longitudes to refer them to occplan's ICRF node:
     the B1950 node's longitude measured from the ICRF node in the ring plane, prograde
-    (0 for ``longitude_reference = "ICRF"``)."""
+    (0 for ``longitude_reference = "ICRF"``).  Computed once per orbit and pole model."""
     if orbit.longitude_reference == "ICRF":
         return 0.0
+    key = (orbit, body.pole)
+    if key not in _OFFSETS:
+        _OFFSETS[key] = _reference_offset(orbit, body)
+    return _OFFSETS[key]
+
+
+def _reference_offset(orbit: RingOrbit, body) -> float:
     n = np.asarray(body.pole.unit_vector(orbit.epoch_jd_tdb), dtype=float).reshape(3)
     node_icrf = node_direction(n)
     node_b = node_direction(n, _b1950_pole_icrf())
@@ -239,13 +249,19 @@ def _days(orbit: RingOrbit, t_tdb_s) -> np.ndarray:
     return np.asarray(t_tdb_s, dtype=float) / SECONDS_PER_DAY - (orbit.epoch_jd_tdb - J2000_JD_TDB)
 
 
+_RATES: dict = {}
+
+
 def _rate_deg_day(given, body, a_km, which: str) -> float:
     if given is not None:
         return float(given)
-    from .dynamics import apsidal_rate_rad_s, nodal_rate_rad_s
+    key = (body.gm_km3_s2, body.reference_radius_km, tuple(body.zonal_j), float(a_km), which)
+    if key not in _RATES:
+        from .dynamics import apsidal_rate_rad_s, nodal_rate_rad_s
 
-    fn = apsidal_rate_rad_s if which == "apse" else nodal_rate_rad_s
-    return math.degrees(float(fn(body, a_km))) * SECONDS_PER_DAY
+        fn = apsidal_rate_rad_s if which == "apse" else nodal_rate_rad_s
+        _RATES[key] = math.degrees(float(fn(body, a_km))) * SECONDS_PER_DAY
+    return _RATES[key]
 
 
 def periapse_rad(orbit: RingOrbit, body, t_tdb_s, which: str = "outer") -> np.ndarray:
