@@ -388,7 +388,21 @@ def apply_ring_orbits(track) -> list[str]:
     shift_dir = s_ring[:2] / s_ring[2] if abs(s_ring[2]) > 1e-9 else np.zeros(2)
     cot_b = float(np.hypot(*shift_dir))
     gaps = list(getattr(body, "gaps", ()))
+    # every modelled ring the chord can reach, and all their envelope crossings in one call
+    r_ca = float(track.closest_approach_radius_km)
+    todo = []
     for reg in _regions_with_orbits(body):
+        lo, hi = radius_span_km(reg.orbit)
+        lift = max(o.a_km * math.sin(math.radians(o.inclination_deg))
+                   for o in (reg.orbit.inner, reg.orbit.outer)) * cot_b
+        if r_ca <= hi + 1.0 + lift:
+            todo.append((reg, max(lo - 1.0 - lift, 1.0), hi + 1.0 + lift))
+        else:  # the chord stays outside every radius the ring can reach: not crossed
+            track.passes = [q for q in track.passes if q.region != reg.name]
+            track.crossings = [c for c in track.crossings if c.region != reg.name]
+    roots = crossing_times(interp, np.array([r for _, lo, hi in todo for r in (lo, hi)]), t0, t1) \
+        if todo else []
+    for k, (reg, _lo, _hi) in enumerate(todo):
         orbit = reg.orbit
 
         def point(t, which, orbit=orbit):
@@ -407,11 +421,7 @@ def apply_ring_orbits(track) -> list[str]:
             r, lon = point(t, which)
             return r - float(edge_radius_km(orbit, body, which, lon, t))
 
-        lo, hi = radius_span_km(orbit)
-        lift = max(o.a_km * math.sin(math.radians(o.inclination_deg))
-                   for o in (orbit.inner, orbit.outer)) * cot_b
-        t_lo, t_hi = crossing_times(interp, np.array([max(lo - 1.0 - lift, 1.0), hi + 1.0 + lift]),
-                                    t0, t1)
+        t_lo, t_hi = roots[2 * k], roots[2 * k + 1]
         passes = [p for p in track.passes if p.region != reg.name]
         crossings = [c for c in track.crossings if c.region != reg.name]
         # gap edges that are this ring's edges (same mean radius within 1 km)
