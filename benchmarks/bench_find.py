@@ -117,19 +117,18 @@ def main() -> None:
 
     with tempfile.TemporaryDirectory() as tmp:
         sys.path.insert(0, str(Path(__file__).parent))
-        from make_partitioned_catalog import synthetic_stars, write_partitioned
+        from make_partitioned_catalog import write_chunked
 
         tic = time.perf_counter()
-        cols = synthetic_stars(int(a.part_stars), 3000, "saturn", START, 365.0, a.seed)
-        files = write_partitioned(tmp, cols, a.part_level)
-        print(f"partitioned catalog: {cols['ra'].size:,} stars in {files:,} files "
+        n_rows, files = write_chunked(tmp, int(a.part_stars), 3000, a.part_level, "saturn",
+                                      START, 365.0, a.seed)
+        print(f"partitioned catalog: {n_rows:,} stars in {files:,} files "
               f"(level {a.part_level}) written in {time.perf_counter() - tic:.0f} s", flush=True)
-        del cols
         dt_p, cands_p, info = timed(body, ParquetCatalog(tmp), year)
         part = info["partitions"]
         print(f"pruned search: {dt_p:.1f} s, read {part['partitions_read']} of "
               f"{part['partitions']} partitions ({100 * part['partitions_read'] / part['partitions']:.2f} %), "
-              f"{part['rows_read']:,} of {part['rows']:,} rows; {len(cands_p)} candidates",
+              f"{part['rows_read']:,} of {n_rows:,} rows; {len(cands_p)} candidates",
               flush=True)
         if not a.skip_dask:
             from occplan.dask_engine import client_for

@@ -2,13 +2,16 @@
 
 Run: python benchmarks/make_partitioned_catalog.py OUT_DIR [--stars 200000] [--level 5]
      [--near 2000] [--body saturn] [--start 2027-01-01] [--days 365] [--seed 1]
+     [--chunk 10000000]
 
 Stars are spread uniformly over the whole sky, plus ``--near`` stars placed within 0.3
 outer-ring radii of the planet's geocentric path over the window (so that a search finds
 candidates).  ``source_id`` follows Gaia's convention: the nested level-12 HEALPix pixel
 times 2**35 plus a running number, so ``source_id // 2**35`` is the pixel.  Files go to
-``OUT_DIR/healpix_level=L/pixel=K/part-0.parquet``; empty pixels have no folder.
-Seeded: the same arguments write the same catalog.
+``OUT_DIR/healpix_level=L/pixel=K/part-C.parquet``; empty pixels have no folder.  A catalog
+larger than ``--chunk`` stars is generated and written one chunk C at a time, so memory stays
+bounded (each pixel folder then holds one file per chunk).  Seeded: the same arguments write
+the same catalog.
 """
 
 from __future__ import annotations
@@ -20,8 +23,9 @@ import numpy as np
 
 
 def synthetic_stars(n_sky: int, n_near: int, body_name: str, start: str, days: float,
-                    seed: int):
-    """Columns (dict of arrays) of the invented catalog, sorted by source_id."""
+                    seed: int, first_number: int = 0):
+    """Columns (dict of arrays) of the invented catalog, sorted by source_id (running numbers
+    from ``first_number``, so chunks of one catalog have distinct ids)."""
     import astropy.units as u
     from astropy_healpix import HEALPix
 
@@ -52,7 +56,7 @@ def synthetic_stars(n_sky: int, n_near: int, body_name: str, start: str, days: f
     order = np.argsort(pix12, kind="stable")
     ra, dec, pix12 = ra[order], dec[order], pix12[order]
     return {
-        "source_id": pix12 * 2 ** 35 + np.arange(n, dtype=np.int64),
+        "source_id": pix12 * 2 ** 35 + first_number + np.arange(n, dtype=np.int64),
         "ra": ra, "dec": dec,
         # no proper motion: the near stars stay on the path whatever the catalog epoch
         "pmra": np.zeros(n), "pmdec": np.zeros(n),
@@ -62,8 +66,9 @@ def synthetic_stars(n_sky: int, n_near: int, body_name: str, start: str, days: f
     }
 
 
-def write_partitioned(out_dir, columns: dict, level: int) -> int:
-    """Write the columns as healpix_level=L/pixel=K/part-0.parquet; returns the number of files."""
+def write_partitioned(out_dir, columns: dict, level: int, part: int = 0) -> int:
+    """Write the columns as healpix_level=L/pixel=K/part-PART.parquet; returns the number of
+    files."""
     import pyarrow as pa
     import pyarrow.parquet as pq
 
@@ -73,7 +78,7 @@ def write_partitioned(out_dir, columns: dict, level: int) -> int:
     for lo, hi in zip(cuts[:-1], cuts[1:]):
         d = Path(out_dir) / f"healpix_level={level}" / f"pixel={int(pix[lo])}"
         d.mkdir(parents=True, exist_ok=True)
-        pq.write_table(table.slice(lo, hi - lo), d / "part-0.parquet")
+        pq.write_table(table.slice(lo, hi - lo), d / f"part-{part}.parquet")
     return len(cuts) - 1
 
 
@@ -87,10 +92,24 @@ def main() -> None:
     ap.add_argument("--start", default="2027-01-01")
     ap.add_argument("--days", type=float, default=365.0)
     ap.add_argument("--seed", type=int, default=1)
+    ap.add_argument("--chunk", type=int, default=10_000_000)
     a = ap.parse_args()
-    cols = synthetic_stars(a.stars, a.near, a.body, a.start, a.days, a.seed)
-    files = write_partitioned(a.out, cols, a.level)
-    print(f"{cols['ra'].size} stars in {files} files under {a.out}")
+    stars, files = write_chunked(a.out, a.stars, a.near, a.level, a.body, a.start, a.days,
+                                 a.seed, a.chunk)
+    print(f"{stars} stars in {files} files under {a.out}")
+
+
+def write_chunked(out_dir, n_sky: int, n_near: int, level: int, body: str, start: str,
+                  days: float, seed: int, chunk: int = 10_000_000) -> tuple[int, int]:
+    """The catalog written ``chunk`` stars at a time (the near stars with the first chunk):
+    (stars, files)."""
+    stars = files = 0
+    for k, lo in enumerate(range(0, max(n_sky, 1), chunk)):
+        cols = synthetic_stars(min(chunk, n_sky - lo), n_near if k == 0 else 0, body, start,
+                               days, seed + k, first_number=stars)
+        files += write_partitioned(out_dir, cols, level, part=k)
+        stars += cols["ra"].size
+    return stars, files
 
 
 if __name__ == "__main__":

@@ -24,6 +24,7 @@ that meets the circle is missed.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import re
 from dataclasses import dataclass
@@ -58,7 +59,7 @@ class Piece:
     row_groups: tuple | None = None  # None: the whole file
     level: int | None = None
     pixel: int | None = None
-    rows: int = 0
+    rows: int | None = 0  # None: not yet read (a folder partition not selected)
 
 
 def reachable_pixels(unit, radius_rad: float, level: int) -> np.ndarray:
@@ -105,8 +106,6 @@ class ParquetCatalog:
 
     def __init__(self, path, column_map: dict | None = None, allow_no_motion: bool = False,
                  ref_epoch_yr: float = DEFAULT_EPOCH_YR):
-        import pyarrow.parquet as pq
-
         p = Path(path)
         if not p.exists():
             raise DataFileError(f"catalog {str(p)!r} not found")
@@ -121,16 +120,12 @@ class ParquetCatalog:
         self.pieces = []
         sid = self.column_map.get("source_id", "source_id")
         for f in files:
-            try:
-                meta = pq.ParquetFile(f).metadata
-            except Exception as exc:  # pyarrow raises several types for a bad file
-                raise DataFileError(f"catalog {f!r} cannot be read as Parquet ({exc})") from None
             rel = str(Path(f).relative_to(p)) if p.is_dir() else Path(f).name
             lv, px = _LEVEL_RE.search(rel), _PIXEL_RE.search(rel)
-            if lv and px:
-                self.pieces.append(Piece(f, None, int(lv.group(1)), int(px.group(1)),
-                                         meta.num_rows))
+            if lv and px:  # the folder names the pixel: the file is opened only if selected
+                self.pieces.append(Piece(f, None, int(lv.group(1)), int(px.group(1)), None))
                 continue
+            meta = _metadata(f)
             names = meta.schema.names
             col = names.index(sid) if sid in names else None
             for g in range(meta.num_row_groups):
@@ -142,6 +137,14 @@ class ParquetCatalog:
                 else:
                     self.pieces.append(Piece(f, (g,), None, None, rg.num_rows))
         self.info = {"partitions": len(self.pieces), "partitions_read": len(self.pieces)}
+
+    @property
+    def rows(self) -> int | None:
+        """Rows in the whole catalog, when known without opening every file (None for folder
+        partitions, whose files are opened only when the path reaches them)."""
+        if any(pc.rows is None for pc in self.pieces):
+            return None
+        return int(sum(pc.rows for pc in self.pieces))
 
     def select(self, path_unit, radius_rad: float, years_from_epoch: float) -> list[Piece]:
         """The pieces the path can reach (all pieces without HEALPix indices)."""
@@ -162,9 +165,10 @@ class ParquetCatalog:
                 i = np.searchsorted(pix, pc.pixel)
                 hit = i < pix.size and pix[i] == pc.pixel
             if hit:
-                out.append(pc)
+                out.append(pc if pc.rows is not None
+                           else dataclasses.replace(pc, rows=_metadata(pc.path).num_rows))
         self.info = {"partitions": len(self.pieces), "partitions_read": len(out),
-                     "rows": int(sum(pc.rows for pc in self.pieces)),
+                     "rows": self.rows,
                      "rows_read": int(sum(pc.rows for pc in out)),
                      "pruning": ("HEALPix pixels within the search radius plus "
                                  f"{allowance / 1e3:.0f} arcsec of star motion"
@@ -176,11 +180,23 @@ class ParquetCatalog:
         yield from read_piece(piece, self.column_map, self.allow_no_motion, chunk_rows)
 
 
-def read_piece(piece: Piece, column_map: dict, allow_no_motion: bool, chunk_rows: int = 250_000):
-    """StarTable chunks of one :class:`Piece` (a free function: Dask workers call it)."""
+def _metadata(path: str):
+    """A Parquet file's footer (row groups, schema, statistics); DataFileError if unreadable."""
+    return _open(path).metadata
+
+
+def _open(path: str):
     import pyarrow.parquet as pq
 
-    f = pq.ParquetFile(piece.path)
+    try:
+        return pq.ParquetFile(path)
+    except Exception as exc:  # pyarrow raises several types for a bad file
+        raise DataFileError(f"catalog {path!r} cannot be read as Parquet ({exc})") from None
+
+
+def read_piece(piece: Piece, column_map: dict, allow_no_motion: bool, chunk_rows: int = 250_000):
+    """StarTable chunks of one :class:`Piece` (a free function: Dask workers call it)."""
+    f = _open(piece.path)
     names = set(f.schema_arrow.names)
     want = [column_map.get(k, k) for k in COLUMNS if column_map.get(k, k) in names]
     missing = [k for k in COLUMNS[:6] if column_map.get(k, k) not in names]

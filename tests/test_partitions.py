@@ -148,3 +148,53 @@ def test_a_parquet_piece_gets_the_catalog_rules_and_gaia_photometry():
     s = stars.star(0)
     assert s.extra["photometry"]["V"]["source"].startswith("Gaia")
     assert s.vmag is not None and s.errors["parallax_error"] == 0.05 and "ra_error" in s.errors
+
+
+def test_folder_partitions_out_of_reach_are_never_opened(catalog, tmp_path):
+    """A folder catalog names its pixels: files the path cannot reach are not opened (an
+    unreadable one out of reach is harmless), a selected unreadable one is a clear error."""
+    import shutil
+
+    from occplan.errors import DataFileError
+
+    root, body, window, ref = catalog
+    cat_dir = tmp_path / "folders"
+    shutil.copytree(root / "folders", cat_dir)
+    cat = ParquetCatalog(cat_dir)
+    assert cat.rows is None
+    chosen = {pc.path for pc in cat.select(*_reach(body, window))}
+    far = next(pc.path for pc in cat.pieces if pc.path not in chosen)
+    Path(far).write_bytes(b"not parquet")
+    got, _, info = search_candidates(body, ParquetCatalog(cat_dir), window)
+    _same(got, ref)
+    assert info["partitions"]["rows"] is None and info["partitions"]["rows_read"] > 0
+    Path(sorted(chosen)[0]).write_bytes(b"not parquet")
+    with pytest.raises(DataFileError, match="cannot be read as Parquet"):
+        search_candidates(body, ParquetCatalog(cat_dir), window)
+
+
+def _reach(body, window):
+    from occplan.ephemeris import get_ephemeris
+    from occplan.search import planet_path, search_radius_rad
+
+    path = planet_path(get_ephemeris(), body, window[0] - 86400.0, window[1] + 86400.0, 3600.0,
+                       body.outer_ring_km + 7378.137)
+    return path.unit, search_radius_rad(path), 11.0
+
+
+def test_dask_batches_cover_every_piece_in_order_with_balanced_rows():
+    """Pieces grouped for Dask tasks: all kept, in order, one batch or more per worker, and
+    no batch much larger than an even share (common practice for task sizing)."""
+    from occplan.dask_engine import batches
+
+    rng = np.random.default_rng(3)
+    rows = rng.integers(1, 400, 59).tolist()
+    pieces = list(range(59))
+    out = batches(pieces, rows, 2, 250_000)
+    assert [p for b in out for p in b] == pieces
+    assert len(out) == 4
+    share = sum(rows) / len(out)
+    assert max(sum(rows[p] for p in b) for b in out) < share + max(rows)
+    big = batches(pieces, [100_000] * 59, 2, 250_000)
+    assert len(big) >= 59 * 100_000 // 250_000 and max(len(b) for b in big) <= 3
+    assert batches([7], [5], 4, 250_000) == [[7]]
