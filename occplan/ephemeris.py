@@ -377,7 +377,41 @@ def as_time(when):
 
     if isinstance(when, Time):
         return when
-    return timescale().tdb_jd(np.asarray(when, dtype=float))
+    return with_tabulated_nutation(timescale().tdb_jd(np.asarray(when, dtype=float)))
+
+
+# Nutation (IAU 2000A, 1,365 terms) is the costliest part of an Earth-fixed site's position.
+# Its shortest periods are of a few days, so a cubic spline through the series evaluated
+# every hour reproduces it to well under a microarcsecond (tests/test_ephemeris_inputs.py
+# measures it against the full series at every sample); a site's position then moves by
+# under a micrometre.  Used when the hourly table is smaller than the times it serves.
+NUTATION_NODE_DAYS = 1.0 / 24.0
+
+
+def with_tabulated_nutation(t):
+    """The skyfield Time ``t`` with its IAU 2000A nutation angles interpolated from an hourly
+    table of the full series (:data:`NUTATION_NODE_DAYS`); unchanged when it holds a single
+    time or fewer times than the table would."""
+    if not t.shape or int(np.prod(t.shape)) < 16:
+        return t
+    from scipy.interpolate import CubicSpline
+    from skyfield.nutationlib import iau2000a_radians
+
+    tt = np.asarray(t.tt, dtype=float).ravel()
+    lo, hi = np.nanmin(tt), np.nanmax(tt)
+    if not (np.isfinite(lo) and np.isfinite(hi)):
+        return t
+    step = NUTATION_NODE_DAYS
+    first = np.floor(lo / step) * step - 2 * step
+    n = int(np.ceil((hi - first) / step)) + 3
+    if 2 * n > tt.size:
+        return t
+    nodes = first + step * np.arange(n)
+    d_psi, d_eps = iau2000a_radians(timescale().tt_jd(nodes))
+    spline = CubicSpline(nodes - first, np.vstack([d_psi, d_eps]), axis=1)
+    angles = spline(tt - first)
+    t._nutation_angles_radians = (angles[0].reshape(t.shape), angles[1].reshape(t.shape))
+    return t
 
 
 def time_from_tdb_s(tdb_s):
@@ -386,7 +420,8 @@ def time_from_tdb_s(tdb_s):
     Internal times of the geometry are TDB seconds past J2000 (float64: 0.1 us resolution);
     a float Julian date resolves only 40 us, which moves the Earth by 1.2 m.
     """
-    return timescale().tdb_jd(J2000_TDB_JD, np.asarray(tdb_s, dtype=float) / 86400.0)
+    return with_tabulated_nutation(
+        timescale().tdb_jd(J2000_TDB_JD, np.asarray(tdb_s, dtype=float) / 86400.0))
 
 
 def tdb_s_of(time) -> np.ndarray:

@@ -42,7 +42,6 @@ from dataclasses import dataclass, replace
 from functools import lru_cache
 
 import numpy as np
-from scipy.optimize import brentq
 
 from .errors import DataFileError
 
@@ -370,7 +369,8 @@ def apply_ring_orbits(track) -> list[str]:
     On each side of the chord (ingress: r decreasing, egress: increasing) the edges are
     bracketed by the times the chord crosses the smallest and largest radius the ring can
     reach (widened by the largest in-plane shift of an inclined edge); each edge's time is
-    the root of r'(t) - R(lambda'(t), t) there (Brent), r' the radius where the ray meets the
+    the root of r'(t) - R(lambda'(t), t) there (all edges of all rings solved together,
+    :func:`_solve_edges`), r' the radius where the ray meets the
     edge's own plane (module docstring).  A gap whose edge coincides with a modelled ring edge
     (the Huygens gap's inner edge is the B ring's outer edge) takes the same crossing.
     Returns notes for the output metadata.
@@ -402,32 +402,10 @@ def apply_ring_orbits(track) -> list[str]:
             track.crossings = [c for c in track.crossings if c.region != reg.name]
     roots = crossing_times(interp, np.array([r for _, lo, hi in todo for r in (lo, hi)]), t0, t1) \
         if todo else []
-    for k, (reg, _lo, _hi) in enumerate(todo):
-        orbit = reg.orbit
-
-        def point(t, which, orbit=orbit):
-            """(radius, longitude) where the ray meets the edge's plane at time t."""
-            u = interp.in_plane(np.array([t]))[0][:, 0]
-            lon = math.atan2(u[1], u[0])
-            for _ in range(2):  # the height depends on the longitude: two fixed-point steps
-                z = float(edge_height_km(orbit, body, which, lon, t))
-                v = u + z * shift_dir
-                lon = math.atan2(v[1], v[0])
-            z = float(edge_height_km(orbit, body, which, lon, t))
-            v = u + z * shift_dir
-            return float(np.hypot(v[0], v[1])), lon
-
-        def miss(t, which, orbit=orbit):
-            r, lon = point(t, which)
-            return r - float(edge_radius_km(orbit, body, which, lon, t))
-
+    # every edge on every side bracketed, then all solved together
+    jobs = []  # (ring index, side, which, a, b)
+    for k in range(len(todo)):
         t_lo, t_hi = roots[2 * k], roots[2 * k + 1]
-        passes = [p for p in track.passes if p.region != reg.name]
-        crossings = [c for c in track.crossings if c.region != reg.name]
-        # gap edges that are this ring's edges (same mean radius within 1 km)
-        twins = [(g.name, "inner" if abs(g.inner_km - orbit.edge(w)[0]) < 1.0 else "outer", w)
-                 for g in gaps for w in ("inner", "outer")
-                 if min(abs(g.inner_km - orbit.edge(w)[0]), abs(g.outer_km - orbit.edge(w)[0])) < 1.0]
         for side, a, b in sides:
             in_lo = [t for t in t_lo if a <= t <= b]
             in_hi = [t for t in t_hi if a <= t <= b]
@@ -435,11 +413,24 @@ def apply_ring_orbits(track) -> list[str]:
                 ba, bb = (in_hi[0] if in_hi else a), (in_lo[0] if in_lo else b)
             else:
                 ba, bb = (in_lo[-1] if in_lo else a), (in_hi[-1] if in_hi else b)
-            times = {}
             for which in ("inner", "outer"):
-                fa, fb = miss(ba, which), miss(bb, which)
-                if np.isfinite(fa) and np.isfinite(fb) and fa * fb < 0:
-                    times[which] = brentq(miss, ba, bb, args=(which,), xtol=1e-6)
+                jobs.append((k, side, which, ba, bb))
+    edges = [(todo[k][0].orbit, which) for k, _side, which, _a, _b in jobs]
+    solved = _solve_edges(interp, body, shift_dir, edges,
+                          np.array([j[3] for j in jobs]), np.array([j[4] for j in jobs]))
+    for k, (reg, _lo, _hi) in enumerate(todo):
+        orbit = reg.orbit
+        passes = [p for p in track.passes if p.region != reg.name]
+        crossings = [c for c in track.crossings if c.region != reg.name]
+        # gap edges that are this ring's edges (same mean radius within 1 km)
+        twins = [(g.name, "inner" if abs(g.inner_km - orbit.edge(w)[0]) < 1.0 else "outer", w)
+                 for g in gaps for w in ("inner", "outer")
+                 if min(abs(g.inner_km - orbit.edge(w)[0]), abs(g.outer_km - orbit.edge(w)[0])) < 1.0]
+        for side, a, b in sides:
+            times, radii = {}, {}
+            for n, (kk, sd, which, _ba, _bb) in enumerate(jobs):
+                if kk == k and sd == side and np.isfinite(solved[0][n]):
+                    times[which], radii[which] = float(solved[0][n]), float(solved[1][n])
             if not times:
                 continue  # this side misses the ring itself
             if len(times) == 2:
@@ -453,7 +444,7 @@ def apply_ring_orbits(track) -> list[str]:
                                      end_s=float(end), clipped=clipped))
             for which, t_edge in times.items():
                 crossing = Crossing(
-                    boundary_km=point(t_edge, which)[0], region=reg.name,
+                    boundary_km=radii[which], region=reg.name,
                     edge=which, tdb_s=float(t_edge), side=side,
                     radial_velocity_km_s=float(interp.radial_velocity(np.array([t_edge]))[0]),
                     behind_planet=bool(interp.limb(np.array([t_edge]))[0] < 0))
@@ -474,6 +465,66 @@ def apply_ring_orbits(track) -> list[str]:
                      f"body file, epoch JD {orbit.epoch_jd_tdb:.1f} TDB, longitudes from the "
                      f"{orbit.longitude_reference} node; its source says where it comes from)")
     return notes
+
+
+def _edge_points(interp, body, shift_dir, edges, kind, t):
+    """(radius, longitude) where the rays at times ``t`` meet the planes of the edges
+    ``edges[kind]``: the in-plane intercept shifted along the star's direction by the edge's
+    height (two fixed-point steps: the height depends on the longitude).  nan where the
+    intercept is not real."""
+    t = np.asarray(t, dtype=float)
+    kind = np.asarray(kind, dtype=int)
+    u = np.where(interp.valid(t), interp.plane(interp.seconds(t)), np.nan)
+    lon = np.arctan2(u[1], u[0])
+    r = np.hypot(u[0], u[1])
+    for e in np.unique(kind):
+        idx = np.nonzero(kind == e)[0]
+        orbit, which = edges[e]
+        ui, li, ti = u[:, idx], lon[idx], t[idx]
+        for _ in range(3):
+            z = edge_height_km(orbit, body, which, li, ti)
+            v = ui + z * shift_dir[:, None]
+            li = np.arctan2(v[1], v[0])
+        r[idx], lon[idx] = np.hypot(v[0], v[1]), li
+    return r, lon
+
+
+def _edge_miss(interp, body, shift_dir, edges, kind, t):
+    """r'(t) - R(lambda'(t), t) for each element's edge (module docstring)."""
+    r, lon = _edge_points(interp, body, shift_dir, edges, kind, t)
+    kind = np.asarray(kind, dtype=int)
+    out = np.empty_like(r)
+    for e in np.unique(kind):
+        idx = np.nonzero(kind == e)[0]
+        orbit, which = edges[e]
+        out[idx] = r[idx] - edge_radius_km(orbit, body, which, lon[idx], np.asarray(t)[idx])
+    return out
+
+
+def _solve_edges(interp, body, shift_dir, edges, a, b):
+    """Crossing times (nan where the bracket [a, b] holds no sign change) and edge radii of
+    ``edges`` (one per bracket), all solved at once by scipy's vectorised bracketed root
+    finder (Chandrupatla's method) to 1e-7 s."""
+    from scipy.optimize.elementwise import find_root
+
+    n = len(edges)
+    times, radii = np.full(n, np.nan), np.full(n, np.nan)
+    if not n:
+        return times, radii
+    kind = np.arange(n)
+    fa = _edge_miss(interp, body, shift_dir, edges, kind, a)
+    fb = _edge_miss(interp, body, shift_dir, edges, kind, b)
+    ok = np.nonzero(np.isfinite(fa) & np.isfinite(fb) & (fa * fb < 0))[0]
+    if not ok.size:
+        return times, radii
+    # solved in seconds from a reference time (module note in occplan.geometry.crossing_times)
+    ref = float(np.min(a[ok]))
+    res = find_root(lambda x, kk: _edge_miss(interp, body, shift_dir, edges, kk, x + ref),
+                    (a[ok] - ref, b[ok] - ref), args=(kind[ok],),
+                    tolerances={"xatol": 1e-7, "xrtol": 0.0})
+    times[ok] = np.asarray(res.x, dtype=float) + ref
+    radii[ok] = _edge_points(interp, body, shift_dir, edges, kind[ok], times[ok])[0]
+    return times, radii
 
 
 def _retime_gap_passes(passes, crossings, gap, gap_edge):
