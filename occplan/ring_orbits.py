@@ -467,44 +467,78 @@ def apply_ring_orbits(track) -> list[str]:
     return notes
 
 
-def _edge_points(interp, body, shift_dir, edges, kind, t):
+class EdgeSet:
+    """Many edges (one element each) evaluated together: the same formulas as
+    :func:`edge_radius_km` and :func:`edge_height_km`, with their parameters laid out as
+    arrays (normal modes padded with zero amplitude), so one call serves every edge of every
+    ring a chord crosses.  ``idx`` selects elements (repeats allowed)."""
+
+    def __init__(self, body, edges):
+        from .constants import J2000_JD_TDB
+
+        rows, modes = [], []
+        for orbit, which in edges:
+            o = orbit.edge_orbit(which)
+            off = reference_offset_rad(orbit, body)
+            apse = _rate_deg_day(o.periapse_rate_deg_day, body, o.a_km, "apse")
+            node = _rate_deg_day(o.node_rate_deg_day, body, o.a_km, "node")
+            rows.append((orbit.epoch_jd_tdb - J2000_JD_TDB, o.a_km, o.e,
+                         math.radians(o.periapse_deg) + off, math.radians(apse),
+                         o.a_km * math.sin(math.radians(o.inclination_deg or 0.0)),
+                         math.radians(o.node_deg or 0.0) + off, math.radians(node)))
+            modes.append([(md.m, md.amplitude_km, off + math.radians(md.phase_deg),
+                           math.radians(md.pattern_speed_deg_day)) for md in o.modes])
+        cols = np.array(rows, dtype=float).reshape(-1, 8).T
+        (self.epoch_day, self.a, self.e, self.peri0, self.peri_rate, self.a_sin_i,
+         self.node0, self.node_rate) = cols
+        width = max([len(m) for m in modes] + [1])
+        pad = np.zeros((len(edges), width, 4))
+        for k, m in enumerate(modes):
+            if m:
+                pad[k, :len(m)] = m
+        self.m, self.amp, self.phase, self.speed = np.moveaxis(pad, 2, 0)
+
+    def _days(self, t, idx):
+        return np.asarray(t, dtype=float) / SECONDS_PER_DAY - self.epoch_day[idx]
+
+    def height(self, lon, t, idx):
+        return self.a_sin_i[idx] * np.sin(lon - self.node0[idx]
+                                          - self.node_rate[idx] * self._days(t, idx))
+
+    def radius(self, lon, t, idx):
+        d = self._days(t, idx)
+        a, e = self.a[idx], self.e[idx]
+        r = a * (1.0 - e * e) / (1.0 + e * np.cos(lon - self.peri0[idx] - self.peri_rate[idx] * d))
+        arg = self.m[idx] * (lon[:, None] - self.phase[idx] - self.speed[idx] * d[:, None])
+        return r - np.sum(self.amp[idx] * np.cos(arg), axis=1)
+
+
+def _edge_points(interp, shift_dir, edges: EdgeSet, idx, t):
     """(radius, longitude) where the rays at times ``t`` meet the planes of the edges
-    ``edges[kind]``: the in-plane intercept shifted along the star's direction by the edge's
-    height (two fixed-point steps: the height depends on the longitude).  nan where the
+    ``idx`` of ``edges``: the in-plane intercept shifted along the star's direction by the
+    edge's height (fixed-point steps: the height depends on the longitude).  nan where the
     intercept is not real."""
     t = np.asarray(t, dtype=float)
-    kind = np.asarray(kind, dtype=int)
+    idx = np.asarray(idx, dtype=int)
     u = np.where(interp.valid(t), interp.plane(interp.seconds(t)), np.nan)
     lon = np.arctan2(u[1], u[0])
-    r = np.hypot(u[0], u[1])
-    for e in np.unique(kind):
-        idx = np.nonzero(kind == e)[0]
-        orbit, which = edges[e]
-        ui, li, ti = u[:, idx], lon[idx], t[idx]
-        for _ in range(3):
-            z = edge_height_km(orbit, body, which, li, ti)
-            v = ui + z * shift_dir[:, None]
-            li = np.arctan2(v[1], v[0])
-        r[idx], lon[idx] = np.hypot(v[0], v[1]), li
-    return r, lon
+    v = u
+    for _ in range(3):
+        v = u + edges.height(lon, t, idx) * shift_dir[:, None]
+        lon = np.arctan2(v[1], v[0])
+    return np.hypot(v[0], v[1]), lon
 
 
-def _edge_miss(interp, body, shift_dir, edges, kind, t):
+def _edge_miss(interp, shift_dir, edges: EdgeSet, idx, t):
     """r'(t) - R(lambda'(t), t) for each element's edge (module docstring)."""
-    r, lon = _edge_points(interp, body, shift_dir, edges, kind, t)
-    kind = np.asarray(kind, dtype=int)
-    out = np.empty_like(r)
-    for e in np.unique(kind):
-        idx = np.nonzero(kind == e)[0]
-        orbit, which = edges[e]
-        out[idx] = r[idx] - edge_radius_km(orbit, body, which, lon[idx], np.asarray(t)[idx])
-    return out
+    r, lon = _edge_points(interp, shift_dir, edges, idx, t)
+    return r - edges.radius(lon, t, np.asarray(idx, dtype=int))
 
 
 def _solve_edges(interp, body, shift_dir, edges, a, b):
     """Crossing times (nan where the bracket [a, b] holds no sign change) and edge radii of
-    ``edges`` (one per bracket), all solved at once by scipy's vectorised bracketed root
-    finder (Chandrupatla's method) to 1e-7 s."""
+    ``edges`` (a list of (orbit, which), one per bracket), all solved at once by scipy's
+    vectorised bracketed root finder (Chandrupatla's method) to 1e-7 s."""
     from scipy.optimize.elementwise import find_root
 
     n = len(edges)
@@ -512,18 +546,19 @@ def _solve_edges(interp, body, shift_dir, edges, a, b):
     if not n:
         return times, radii
     kind = np.arange(n)
-    fa = _edge_miss(interp, body, shift_dir, edges, kind, a)
-    fb = _edge_miss(interp, body, shift_dir, edges, kind, b)
+    eset = EdgeSet(body, edges)
+    fa = _edge_miss(interp, shift_dir, eset, kind, a)
+    fb = _edge_miss(interp, shift_dir, eset, kind, b)
     ok = np.nonzero(np.isfinite(fa) & np.isfinite(fb) & (fa * fb < 0))[0]
     if not ok.size:
         return times, radii
     # solved in seconds from a reference time (module note in occplan.geometry.crossing_times)
     ref = float(np.min(a[ok]))
-    res = find_root(lambda x, kk: _edge_miss(interp, body, shift_dir, edges, kk, x + ref),
+    res = find_root(lambda x, kk: _edge_miss(interp, shift_dir, eset, kk, x + ref),
                     (a[ok] - ref, b[ok] - ref), args=(kind[ok],),
                     tolerances={"xatol": 1e-7, "xrtol": 0.0})
     times[ok] = np.asarray(res.x, dtype=float) + ref
-    radii[ok] = _edge_points(interp, body, shift_dir, edges, kind[ok], times[ok])[0]
+    radii[ok] = _edge_points(interp, shift_dir, eset, kind[ok], times[ok])[0]
     return times, radii
 
 

@@ -228,3 +228,27 @@ def test_mode_phase_error_moves_the_radius_as_a_finite_difference():
     for lon in np.radians([10.0, 50.0, 100.0, 222.0]):
         d = abs(float(edge_radius_km(o2, saturn, "outer", lon, t) - edge_radius_km(o, saturn, "outer", lon, t)))
         assert edge_radius_sigma_km(o, saturn, "outer", lon, t) == pytest.approx(d, rel=0.02, abs=0.01)
+
+
+def test_vectorised_edge_set_matches_the_per_edge_formulas():
+    """EdgeSet (all edges at once, used by the crossing solver) against edge_radius_km and
+    edge_height_km edge by edge, for every built-in ring orbit (Uranus's inclined rings,
+    Saturn's B-ring edge with its normal modes): the same numbers to 1 mm."""
+    from occplan.ring_orbits import EdgeSet, edge_height_km, edge_radius_km
+
+    rng = np.random.default_rng(11)
+    for name in ("uranus", "saturn"):
+        body = get_body(name)
+        edges = [(r.orbit, w) for r in body.rings if r.orbit is not None
+                 for w in ("inner", "outer")]
+        assert len(edges) >= 10
+        eset = EdgeSet(body, edges)
+        idx = rng.integers(0, len(edges), 400)
+        lon = rng.uniform(-np.pi, 3 * np.pi, 400)
+        t = rng.uniform(7e8, 1.1e9, 400)
+        want_r = [edge_radius_km(*edges[k][:1], body, edges[k][1], lon[i], t[i])
+                  for i, k in enumerate(idx)]
+        want_z = [edge_height_km(*edges[k][:1], body, edges[k][1], lon[i], t[i])
+                  for i, k in enumerate(idx)]
+        assert np.max(np.abs(eset.radius(lon, t, idx) - np.array(want_r, dtype=float))) < 1e-6
+        assert np.max(np.abs(eset.height(lon, t, idx) - np.array(want_z, dtype=float))) < 1e-6
