@@ -13,3 +13,6 @@ J2000_JD_TDB = 2451545.0  # 2000-01-01T12:00:00 TDB
 # DE440 value (Park et al. 2021, AJ 161, 105; from memory).  DE421's 1.32712440040944e11
 # (Folkner et al. 2008) differs by 3e-12 relative: nothing measurable in a deflection.
 GM_SUN_KM3_S2 = 1.32712440041279419e11
+
+# Highest azimuthal wavenumber m searched for resonances by default (occplan.resonances).
+DEFAULT_MAX_M = 200

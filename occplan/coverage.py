@@ -27,11 +27,14 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
-from shapely.geometry import LineString, Polygon
 
 from .geometry import Track
+
+if TYPE_CHECKING:  # shapely is imported where it is used (a fast `occplan --help`)
+    from shapely.geometry import Polygon
 
 DEFAULT_SAMPLES_PER_WAVELENGTH = 4.0
 NYQUIST_SAMPLES_PER_WAVELENGTH = 2.0
@@ -48,6 +51,8 @@ ELLIPSE_VERTICES = 1440  # chord error of the polygon: R (1 - cos(pi/1440)) = 0.
 def ellipse(a_km: float, b_km: float, pole_angle_deg: float, n: int = ELLIPSE_VERTICES) -> Polygon:
     """Sky-plane ellipse (f east, g north, km): semi-axis a along the rings' long axis,
     b along the projected pole at position angle P."""
+    from shapely.geometry import Polygon
+
     th = np.linspace(0.0, 2.0 * np.pi, n, endpoint=False)
     u, v = a_km * np.cos(th), b_km * np.sin(th)
     p = math.radians(pole_angle_deg)
@@ -82,6 +87,8 @@ def far_side(polygon, star_elevation_deg: float, pole_angle_deg: float, size_km:
     A ring point at sky offset (u, v) lies at depth -v cot(B*) along the line of sight, so the
     far half is the one with v sign(B*) < 0.
     """
+    from shapely.geometry import Polygon
+
     p = math.radians(pole_angle_deg)
     e_v = np.array([math.sin(p), math.cos(p)])
     e_u = np.array([math.cos(p), -math.sin(p)])
@@ -96,6 +103,8 @@ def hidden_intervals(track: Track) -> list[tuple[float, float]]:
 
     Uses the disk at mid-chord (B and P change by < 1e-4 deg over a chord).
     """
+    from shapely.geometry import LineString
+
     m = track.meta
     disk = planet_disk(track.body, m["star_elevation_deg"], m["pole_position_angle_deg"])
     t0 = float(track.tdb_s[0])

@@ -254,10 +254,10 @@ def _build(out: Path, camp: dict, here: Path, top_events, progress, log) -> Demo
     for name in camp["bodies"]:
         body = get_body(name)
         log(f"[{name}] searching {len(table)} catalog stars, {window[0]} .. {window[1]}")
-        found = find_events(body, table, window, sites, progress=progress)
+        found = find_events(body, table, window, sites, progress=progress, jobs=0)
         log(f"[{name}] {len(found.candidates)} geocentric candidates, {len(found.events)} "
             "station events crossing the rings; evaluating their features")
-        score_events(found, settings=settings, weights=weights, progress=progress)
+        score_events(found, settings=settings, weights=weights, progress=progress, jobs=0)
         rows = rank_rows(event_rows(found))
         for r in rows:
             r.pop("zones", None)
@@ -296,7 +296,7 @@ def _build(out: Path, camp: dict, here: Path, top_events, progress, log) -> Demo
                                  min_altitude_deg=site.min_altitude_deg)
             stem = f"{name}_{i}"
             fig_rel = f"figures/{stem}.png"
-            save_event_figures(rep, out / fig_rel, overwrite=True)
+            save_event_figures(rep, out / fig_rel, overwrite=True, dpi=150)
             ev_json = out / "events" / f"{stem}.json"
             ev_json.write_text(json.dumps(_plain(rep.to_json()), indent=1) + "\n", encoding="utf-8")
             chord_res = chord(body, star, site.observer(), (a, b), step_s=1.0)

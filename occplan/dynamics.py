@@ -20,7 +20,6 @@ n - kappa, the nodal rate n - nu (negative: nodes regress).
 from __future__ import annotations
 
 import numpy as np
-from scipy.special import eval_legendre, gammaln, hyp2f1
 
 from .bodies import Body, Satellite
 from .constants import SECONDS_PER_DAY
@@ -41,6 +40,8 @@ __all__ = [
 
 def _series(body: Body, r_km):
     """GM/r^3, x = (R/r)^2 and the coefficients c_k (c_0 = 1) of the zonal sums."""
+    from scipy.special import eval_legendre
+
     r = np.asarray(r_km, dtype=float)
     gm_r3 = body.gm_km3_s2 / r**3
     x = (body.reference_radius_km / r) ** 2
@@ -153,6 +154,8 @@ _RECURRENCE_START = 120  # below this j scipy's hyp2f1 is reliable for every alp
 
 def _hyp_pair(s, j, alpha):
     """b_s^(j)(alpha) and d/dalpha of it from the hypergeometric form (two hyp2f1 calls)."""
+    from scipy.special import gammaln, hyp2f1
+
     z = alpha * alpha
     lead = np.exp(gammaln(s + j) - gammaln(s) - gammaln(j + 1.0))
     f = hyp2f1(s, s + j, j + 1.0, z)

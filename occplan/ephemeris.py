@@ -384,32 +384,43 @@ def as_time(when):
 # Its shortest periods are of a few days, so a cubic spline through the series evaluated
 # every hour reproduces it to well under a microarcsecond (tests/test_ephemeris_inputs.py
 # measures it against the full series at every sample); a site's position then moves by
-# under a micrometre.  Used when the hourly table is smaller than the times it serves.
+# under a micrometre.  The tables are made per TT day (kept for reuse: the events of a
+# season share their days) and used when they are fewer points than the times they serve.
 NUTATION_NODE_DAYS = 1.0 / 24.0
+_NUTATION_PAD = 3  # hourly nodes beyond each end of the day
 
 
-def with_tabulated_nutation(t):
-    """The skyfield Time ``t`` with its IAU 2000A nutation angles interpolated from an hourly
-    table of the full series (:data:`NUTATION_NODE_DAYS`); unchanged when it holds a single
-    time or fewer times than the table would."""
-    if not t.shape or int(np.prod(t.shape)) < 16:
-        return t
+@lru_cache(maxsize=8192)
+def _nutation_day(day: int):
+    """Cubic spline of (dpsi, deps) in radians over TT day ``day`` (JD from day to day + 1),
+    argument: TT days since JD ``day``."""
     from scipy.interpolate import CubicSpline
     from skyfield.nutationlib import iau2000a_radians
 
-    tt = np.asarray(t.tt, dtype=float).ravel()
-    lo, hi = np.nanmin(tt), np.nanmax(tt)
-    if not (np.isfinite(lo) and np.isfinite(hi)):
+    x = NUTATION_NODE_DAYS * np.arange(-_NUTATION_PAD, 24 + _NUTATION_PAD + 1)
+    d_psi, d_eps = iau2000a_radians(timescale().tt_jd(float(day), x))
+    return CubicSpline(x, np.vstack([d_psi, d_eps]), axis=1)
+
+
+def with_tabulated_nutation(t):
+    """The skyfield Time ``t`` with its IAU 2000A nutation angles interpolated from hourly
+    tables of the full series (:data:`NUTATION_NODE_DAYS`); unchanged when it holds fewer
+    than 16 times or spans more days than the tables would save."""
+    if not t.shape or int(np.prod(t.shape)) < 16:
         return t
-    step = NUTATION_NODE_DAYS
-    first = np.floor(lo / step) * step - 2 * step
-    n = int(np.ceil((hi - first) / step)) + 3
-    if 2 * n > tt.size:
+    whole = np.asarray(t.whole, dtype=float).ravel()
+    frac = np.asarray(t.tt_fraction, dtype=float).ravel()
+    if not (np.all(np.isfinite(whole)) and np.all(np.isfinite(frac))):
         return t
-    nodes = first + step * np.arange(n)
-    d_psi, d_eps = iau2000a_radians(timescale().tt_jd(nodes))
-    spline = CubicSpline(nodes - first, np.vstack([d_psi, d_eps]), axis=1)
-    angles = spline(tt - first)
+    day = np.floor(whole + frac)
+    days, inverse = np.unique(day, return_inverse=True)
+    if 2 * days.size * (24 + 2 * _NUTATION_PAD + 1) > whole.size:
+        return t
+    x = (whole - day) + frac  # TT days since each day's start, at full precision
+    angles = np.empty((2, whole.size))
+    for k, d in enumerate(days):
+        idx = np.nonzero(inverse == k)[0] if days.size > 1 else slice(None)
+        angles[:, idx] = _nutation_day(int(d))(x[idx])
     t._nutation_angles_radians = (angles[0].reshape(t.shape), angles[1].reshape(t.shape))
     return t
 

@@ -42,8 +42,6 @@ import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.interpolate import CubicSpline
-from scipy.optimize import brentq
 
 from . import __version__
 from .constants import GM_SUN_KM3_S2, SECONDS_PER_DAY, SPEED_OF_LIGHT_KM_S
@@ -57,7 +55,7 @@ DEFAULT_NODE_STEP_S = 120.0
 # (about 555 days at 120 s; some 500 bytes a node are kept for the splines, about 250 MB),
 # in blocks of NODE_BLOCK (a topocentric node needs about 23 kB while it is evaluated).
 MAX_TRACK_NODES = 400_000
-NODE_BLOCK = 5_000
+NODE_BLOCK = 2_000
 MAX_SAMPLES = 5_000_000
 _Z = np.array([0.0, 0.0, 1.0])
 _Y = np.array([0.0, 1.0, 0.0])
@@ -355,6 +353,8 @@ class _Interpolant:
             "distance", "ray_length")
 
     def __init__(self, node_s, exact):
+        from scipy.interpolate import CubicSpline
+
         self.t0 = float(node_s[0])
         self.node_s = np.asarray(node_s, dtype=float)
         self.node_valid = np.asarray(exact["valid"], dtype=bool)
@@ -431,6 +431,8 @@ class _Interpolant:
     def extrema(self) -> tuple[np.ndarray, np.ndarray]:
         """Times of the local minima and maxima of r(t) over the node span (Brent's method
         on u.du/dt), cached."""
+        from scipy.optimize import brentq
+
         if not hasattr(self, "_extrema"):
             g = self.half_dr2_dt(self.node_s)
             idx = np.nonzero(np.sign(g[:-1]) * np.sign(g[1:]) < 0)[0]

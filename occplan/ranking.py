@@ -369,37 +369,45 @@ def evaluation_window(ev) -> tuple[float, float]:
 
 
 def score_events(result, *, kernels=None, corrections=None, settings: RankSettings = RankSettings(),
-                 weights: Weights | None = None, progress=None) -> None:
+                 weights: Weights | None = None, progress=None, jobs: int = 1) -> None:
     """Evaluate and score every event of a :class:`occplan.search.SearchResult` in place.
 
     Each event gets ``zones`` (crossing records) and ``score`` (factors, sums, reasons); the
-    result's meta gets the weights.
+    result's meta gets the weights.  ``jobs`` processes share the events
+    (:func:`occplan.parallel.map_indexed`; 0: one per core); the results do not depend on it.
     """
+    from .parallel import map_indexed
     from .search import _progress
 
     weights = weights or load_weights()
-    bar = _progress(len(result.events), "evaluating events", progress)
+    events = result.events
+
+    def one(i):
+        ev = events[i]
+        if not ev.crosses_rings:
+            score = score_zones([], weights)
+            score["telescope"] = ""
+            return [], score
+        try:
+            records, score, tel = evaluate_and_score(
+                result.body, ev.candidate.star, ev.observer, evaluation_window(ev),
+                site=ev.site, kernels=kernels, corrections=corrections,
+                settings=settings, weights=weights)
+        except GeometryError as exc:
+            records, score, tel = [], score_zones([], weights), ""
+            score["reasons"] = str(exc)
+        score["telescope"] = tel
+        return records, score
+
+    bar = _progress(len(events), "evaluating events", progress)
     try:
-        for ev in result.events:
-            if not ev.crosses_rings:
-                ev.zones, ev.score = [], score_zones([], weights)
-                ev.score["telescope"] = ""
-            else:
-                try:
-                    records, score, tel = evaluate_and_score(
-                        result.body, ev.candidate.star, ev.observer, evaluation_window(ev),
-                        site=ev.site, kernels=kernels, corrections=corrections,
-                        settings=settings, weights=weights)
-                except GeometryError as exc:
-                    records, score, tel = [], score_zones([], weights), ""
-                    score["reasons"] = str(exc)
-                ev.zones, ev.score = records, score
-                ev.score["telescope"] = tel
-            if bar is not None:
-                bar.advance(bar.task)
+        done = map_indexed(one, len(events), jobs,
+                           advance=None if bar is None else lambda: bar.advance(bar.task))
     finally:
         if bar is not None:
             bar.stop()
+    for ev, (records, score) in zip(events, done):
+        ev.zones, ev.score = records, score
     result.meta["ranking"] = ranking_meta(weights, settings)
 
 

@@ -31,7 +31,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy.interpolate import CubicSpline
 
 from .constants import SECONDS_PER_DAY, SPEED_OF_LIGHT_KM_S
 from .ephemeris import J2000_TDB_JD, Observer, time_from_tdb_s
@@ -240,6 +239,8 @@ class RunSplines:
     """Cubic splines of every run, evaluated at any (run, node-index coordinate x)."""
 
     def __init__(self, n_nodes, values, valid):
+        from scipy.interpolate import CubicSpline
+
         # runs are sorted by node count; nodes of run r are values[:, noff[r]:noff[r] + n[r]]
         self.n = np.asarray(n_nodes)
         self.noff = np.r_[0, np.cumsum(self.n)[:-1]]

@@ -68,7 +68,7 @@ __all__ = [
 ]
 
 MAX_ORDER = 3
-DEFAULT_MAX_M = 200
+from .constants import DEFAULT_MAX_M  # noqa: E402 (re-exported)
 KINDS = ("ILR", "OLR", "IVR", "OVR", "CR")
 _SIDE = {"ILR": 1, "OLR": -1, "IVR": 1, "OVR": -1}
 KM4_S2_TO_CM4_S2 = 1e20

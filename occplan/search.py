@@ -57,8 +57,6 @@ import sys
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.optimize import brentq, minimize_scalar
-from scipy.spatial import cKDTree
 
 from . import __version__
 from .constants import SPEED_OF_LIGHT_KM_S
@@ -262,6 +260,8 @@ def prefilter(path: PlanetPath, table, tree=None):
     -------
     :class:`Reach` (``rows`` index ``table``)
     """
+    from scipy.spatial import cKDTree
+
     t_ref = 0.5 * (path.tdb_s[0] + path.tdb_s[-1])
     half = 0.5 * (path.tdb_s[-1] - path.tdb_s[0])
     base = path.theta_rad + 0.5 * float(path.step_rad.max(initial=0.0)) + 1e-9
@@ -382,6 +382,8 @@ class Candidate:
 
 def _local_minima(interp, t0: float, t1: float) -> list[float]:
     """Times of the local minima of r(t) in [t0, t1] (u.du/dt from - to +, Brent)."""
+    from scipy.optimize import brentq
+
     def g(tt):
         v, dv = interp.in_plane(np.atleast_1d(tt))
         return v[0] * dv[0] + v[1] * dv[1]
@@ -410,6 +412,8 @@ def sky_distance_km(track, body, tdb_s):
 
 def _min_sky_distance(track, body, a: float, b: float):
     """(d_min, t) over [a, b]: dense spline samples, then Brent's bounded method."""
+    from scipy.optimize import minimize_scalar
+
     n = int(min(max((b - a) / 30.0, 16), 20000))
     tt = np.linspace(a, b, n)
     d = sky_distance_km(track, body, tt)
@@ -725,6 +729,8 @@ def search_path(eph, body, path: PlanetPath, chunks, window, corrections: Correc
 
     Returns (candidates, skipped, (stars searched, prefiltered, screened)).
     """
+    from scipy.spatial import cKDTree
+
     tree = cKDTree(path.unit)
     n_searched, parts, row_parts, runs = 0, [], [], []
     n_hits = 0
@@ -861,14 +867,17 @@ def search_candidates(body, table, window, *, kernels=None,
 def find_events(body, table, window, observers, *, kernels=None,
                 corrections: Corrections = Corrections(), margin_km: float | None = None,
                 node_step_s: float = DEFAULT_NODE_STEP_S, include_misses: bool = False,
-                progress=None, engine: str = "local", scheduler: str | None = None) -> SearchResult:
+                progress=None, engine: str = "local", scheduler: str | None = None,
+                jobs: int = 1) -> SearchResult:
     """Candidate events of a catalog over a window for each observer (all three stages).
 
     ``observers`` is a list of :class:`occplan.ephemeris.Observer` or of
     :class:`occplan.catalogs.Site` (whose telescope path is kept for the ranking).  Events
     whose chord misses every ring region at that observer are dropped unless
-    ``include_misses``.
+    ``include_misses``.  ``jobs`` processes share the observers' tracks
+    (:func:`occplan.parallel.map_indexed`; 0: one per core).
     """
+    from .parallel import map_indexed
     from .catalogs import Site
 
     if not observers:
@@ -881,25 +890,29 @@ def find_events(body, table, window, observers, *, kernels=None,
     pairs = [(o.observer(), o) if isinstance(o, Site) else (o, None) for o in observers]
     events = []
     misses = 0
-    bar = _progress(len(candidates) * len(pairs), "observer tracks", progress)
+    work = [(cand, obs, site) for cand in candidates for obs, site in pairs]
+
+    def one(i):
+        cand, obs, site = work[i]
+        try:
+            return topocentric_event(eph, body, cand, obs, corrections, margin_km, site)
+        except GeometryError as exc:
+            return f"{obs.name}: {exc}"
+
+    bar = _progress(len(work), "observer tracks", progress)
     try:
-        for cand in candidates:
-            for obs, site in pairs:
-                try:
-                    ev = topocentric_event(eph, body, cand, obs, corrections, margin_km, site)
-                except GeometryError as exc:
-                    skipped.append((cand.star_id, f"{obs.name}: {exc}"))
-                    continue
-                finally:
-                    if bar is not None:
-                        bar.advance(bar.task)
-                if ev.crosses_rings or include_misses:
-                    events.append(ev)
-                else:
-                    misses += 1
+        done = map_indexed(one, len(work), jobs,
+                           advance=None if bar is None else lambda: bar.advance(bar.task))
     finally:
         if bar is not None:
             bar.stop()
+    for (cand, _obs, _site), ev in zip(work, done):
+        if isinstance(ev, str):
+            skipped.append((cand.star_id, ev))
+        elif ev.crosses_rings or include_misses:
+            events.append(ev)
+        else:
+            misses += 1
     events.sort(key=lambda e: (e.closest_approach_s, e.site_name))
     t0, t1 = window_tdb_s(window)
     meta = {

@@ -35,7 +35,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy.stats import ncx2
 
 from .errors import InputError
 
@@ -64,6 +63,8 @@ class ApertureBackground:
 
     def __init__(self, body, band_name, telescope, distance_km, heliocentric_distance_au,
                  opening_angle_deg, star_elevation_deg, pole_angle_deg, sun_opening_angle_deg=None):
+        from scipy.stats import ncx2
+
         from . import photometry as ph
 
         self.body = body

@@ -38,8 +38,11 @@ atomic_write(sys.argv[1], write, overwrite=False)
 @pytest.mark.parametrize("sig", [signal.SIGINT, signal.SIGTERM], ids=["SIGINT", "SIGTERM"])
 def test_a_signal_while_writing_leaves_nothing(tmp_path, sig):
     target = tmp_path / "big.csv"
+    # a shell's background job ignores SIGINT and its children inherit that (POSIX): restore
+    # the default so the child gets Python's usual KeyboardInterrupt wherever pytest runs
     proc = subprocess.Popen([sys.executable, "-c", SLOW_WRITER, str(target)],
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                            preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL))
     try:
         assert proc.stdout.readline().strip() == "writing", proc.stderr.read()
         assert [p.name for p in tmp_path.iterdir() if p.name.endswith(".tmp")]  # it exists

@@ -149,3 +149,37 @@ def test_bad_windows_and_observers(path_nodes):
         find_events(body, [star], (t0, t1), [])
     with pytest.raises(InputError, match="margin"):
         search_candidates(body, [star], (t0, t1), margin_km=-1.0)
+
+
+def test_jobs_share_the_work_and_change_no_result(path_nodes):
+    """Tracks and scores computed on two forked processes equal the serial ones exactly
+    (the same functions on the same inputs; common practice for a process pool)."""
+    import copy
+
+    from occplan.parallel import effective_jobs
+    from occplan.ranking import score_events
+
+    body, path, t0, t1 = path_nodes
+    stars = [StarSpec(*on_path(path, t0 + (1.0 + k) * 86400.0, 2.0e-6 * k), epoch_jd_tt=2461650.0,
+                      name=f"p{k}") for k in range(5)]
+    sites = [Observer.site("north", 45.0, 10.0, 500.0), Observer.site("south", -30.0, -70.0, 2000.0)]
+    serial = find_events(body, stars, (t0, t1), sites, jobs=1)
+    forked = find_events(body, stars, (t0, t1), sites, jobs=2)
+    key = [(e.star_id, e.site_name, e.closest_approach_s, e.min_ring_radius_km, len(e.passes))
+           for e in serial.events]
+    assert len(key) >= 8 and effective_jobs(2, len(key)) == 2
+    assert key == [(e.star_id, e.site_name, e.closest_approach_s, e.min_ring_radius_km,
+                    len(e.passes)) for e in forked.events]
+    again = copy.deepcopy(serial)
+    score_events(serial, jobs=1)
+    score_events(again, jobs=2)
+    import json
+
+    def same(x):  # nan-aware equality of the records
+        return json.dumps(x, sort_keys=True, default=str)
+
+    assert same([e.score for e in serial.events]) == same([e.score for e in again.events])
+    assert same([e.zones for e in serial.events]) == same([e.zones for e in again.events])
+    assert any(e.score["score"] > 0 or e.score["potential_score"] > 0 for e in serial.events)
+    with pytest.raises(InputError, match="--jobs"):
+        effective_jobs(-1, 10)

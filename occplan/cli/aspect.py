@@ -4,10 +4,11 @@ from __future__ import annotations
 
 import typer
 
-from .. import chords
-from . import common
 from . import options as o
-from ..tables import check_format, check_out, emit, render
+
+chords = o.lazy("occplan.chords")
+common = o.lazy("occplan.cli.common")
+_tables = o.lazy("occplan.tables")
 
 
 def register(app: typer.Typer) -> None:
@@ -26,11 +27,11 @@ def register(app: typer.Typer) -> None:
         Example: occplan aspect --body saturn --geocentre --start 2025-01-01 --end 2025-06-01
         --step 604800
         """
-        fmt = check_format(fmt)
-        check_out(out, overwrite)
+        fmt = _tables.check_format(fmt)
+        _tables.check_out(out, overwrite)
         rows, meta = chords.aspect(
             common.body(body), common.observer(site, sites, lat, lon, height, geocentre, observer_id),
             common.window(start, end), step_s=step, kernels=kernel, barycentre_only=barycentre)
         header = f"# {meta['body']} seen from {meta['observer']['name']}; {meta['note']}\n"
-        emit(render(rows, meta, fmt, chords.ASPECT_COLUMNS, header if fmt == "table" else None),
+        _tables.emit(_tables.render(rows, meta, fmt, chords.ASPECT_COLUMNS, header if fmt == "table" else None),
              out, overwrite)

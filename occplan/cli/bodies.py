@@ -4,9 +4,10 @@ from __future__ import annotations
 
 import typer
 
-from ..bodies import builtin_names, get_body
 from . import options as o
-from ..tables import check_format, check_out, emit, render
+
+_bodies = o.lazy("occplan.bodies")
+_tables = o.lazy("occplan.tables")
 
 
 def register(app: typer.Typer) -> None:
@@ -20,20 +21,20 @@ def register(app: typer.Typer) -> None:
 
         Example: occplan bodies --body uranus
         """
-        fmt = check_format(fmt)
-        check_out(out, overwrite)
+        fmt = _tables.check_format(fmt)
+        _tables.check_out(out, overwrite)
         if not body:
             rows = []
-            for name in builtin_names():
-                b = get_body(name)
+            for name in _bodies.builtin_names():
+                b = _bodies.get_body(name)
                 rows.append({"body": b.name, "gm_km3_s2": b.gm_km3_s2,
                              "equatorial_radius_km": b.equatorial_radius_km,
                              "rings": len(b.rings), "inner_ring_km": b.inner_ring_km,
                              "outer_ring_km": b.outer_ring_km, "satellites": len(b.satellites),
                              "zonal_harmonics": len(b.zonal_j)})
-            emit(render(rows, {"bodies": builtin_names()}, fmt), out, overwrite)
+            _tables.emit(_tables.render(rows, {"bodies": _bodies.builtin_names()}, fmt), out, overwrite)
             return
-        b = get_body(body)
+        b = _bodies.get_body(body)
         rows = [{"kind": "ring", "name": r.name, "inner_km": r.inner_km, "outer_km": r.outer_km,
                  "surface_density_g_cm2": r.surface_density_g_cm2, "source": r.source}
                 for r in b.rings]
@@ -47,5 +48,5 @@ def register(app: typer.Typer) -> None:
                   f"J2..J{2 * len(b.zonal_j)} at {b.reference_radius_km} km ({b.sources['gravity']})\n"
                   f"# pole: {b.sources['pole']}\n")
         cols = ["kind", "name", "inner_km", "outer_km", "a_km", "gm_km3_s2", "surface_density_g_cm2"]
-        emit(render(rows, meta, fmt, cols if fmt == "table" else None,
+        _tables.emit(_tables.render(rows, meta, fmt, cols if fmt == "table" else None,
                     header if fmt == "table" else None), out, overwrite)

@@ -4,10 +4,11 @@ from __future__ import annotations
 
 import typer
 
-from .. import chords
-from . import common
 from . import options as o
-from ..tables import check_format, check_out, emit, render
+
+chords = o.lazy("occplan.chords")
+common = o.lazy("occplan.cli.common")
+_tables = o.lazy("occplan.tables")
 
 
 def register(app: typer.Typer) -> None:
@@ -30,8 +31,8 @@ def register(app: typer.Typer) -> None:
         Example: occplan chord --body saturn --star "23.99933 7.46995" --lat -30.2 --lon -70.7
         --height 2200 --start 2027-06-15T00:00Z --end 2027-06-15T04:00Z --step 10
         """
-        fmt = check_format(fmt)
-        check_out(out, overwrite)
+        fmt = _tables.check_format(fmt)
+        _tables.check_out(out, overwrite)
         result = chords.chord(
             body=common.body(body),
             star=common.star(star, pm_ra, pm_dec, parallax, rv, star_epoch, None, None, catalog, star_id),
@@ -40,5 +41,5 @@ def register(app: typer.Typer) -> None:
             deflection=not no_deflection, barycentre_only=barycentre,
         )
         header = chords.summary_text(result) if fmt == "table" else None
-        text = render(result.rows, result.meta, fmt, columns=chords.CHORD_COLUMNS, header=header)
-        emit(text, out, overwrite)
+        text = _tables.render(result.rows, result.meta, fmt, columns=chords.CHORD_COLUMNS, header=header)
+        _tables.emit(text, out, overwrite)

@@ -6,10 +6,11 @@ import json
 
 import typer
 
-from .. import events
-from ..tables import _plain, check_format, check_out, emit, render
-from . import common
 from . import options as o
+
+events = o.lazy("occplan.events")
+common = o.lazy("occplan.cli.common")
+_tables = o.lazy("occplan.tables")
 
 ZONE_COLUMNS = ["side", "time_utc", "name", "feature", "satellite", "label", "kind", "wave", "m",
                 "order", "resonance_radius_km", "radial_velocity_km_s", "feature_scale_km",
@@ -44,15 +45,15 @@ def register(app: typer.Typer) -> None:
         Example: occplan event --body saturn --star "23.9962 7.4700" --vmag 9.5 --kmag 6.0
         --lat -22 --lon 50 --height 1200 --start 2027-06-14T23:50Z --end 2027-06-15T01:20Z
         """
-        fmt = check_format(fmt)
-        check_out(out, overwrite)
+        fmt = _tables.check_format(fmt)
+        _tables.check_out(out, overwrite)
         report = common.event_report(locals())
         if fmt == "json":
-            text = json.dumps(_plain(report.to_json()), indent=1) + "\n"
+            text = json.dumps(_tables._plain(report.to_json()), indent=1) + "\n"
         elif fmt == "table":
             text = events.summary_text(report)
         else:
             data = report.to_json()
             meta = {k: v for k, v in data.items() if k != "zones"}
-            text = render(report.zone_rows(), meta, fmt, columns=None)
-        emit(text, out, overwrite)
+            text = _tables.render(report.zone_rows(), meta, fmt, columns=None)
+        _tables.emit(text, out, overwrite)

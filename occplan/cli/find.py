@@ -7,13 +7,15 @@ from typing import Annotated, Optional
 
 import typer
 
-from .. import ranking, search
-from ..catalogs import find_site, load_sites, read_catalog_table
 from ..errors import InputError
-from ..geometry import Corrections
-from ..tables import all_or_none, check_format, check_out, emit, render
-from . import common
 from . import options as o
+
+ranking = o.lazy("occplan.ranking")
+search = o.lazy("occplan.search")
+common = o.lazy("occplan.cli.common")
+_catalogs = o.lazy("occplan.catalogs")
+_geometry = o.lazy("occplan.geometry")
+_tables = o.lazy("occplan.tables")
 
 # --site is repeatable here (one command searches for several sites at once)
 SiteList = Annotated[Optional[list[str]], typer.Option("--site", help="Site name from --sites (repeatable; default: every site of the file).")]
@@ -32,6 +34,7 @@ class EngineName(StrEnum):
 Engine = Annotated[EngineName, typer.Option("--engine", help="Where the catalog search runs: local (this process) or dask (per catalog piece on a Dask cluster).")]
 Scheduler = Annotated[Optional[str], typer.Option("--scheduler", help="Dask scheduler address for --engine dask, e.g. tcp://host:8786 (default: a local cluster of 2 workers).")]
 Progress = Annotated[Optional[bool], typer.Option("--progress/--no-progress", help="Progress bars on stderr (default: when stderr is a terminal).")]
+Jobs = Annotated[int, typer.Option("--jobs", metavar="N", help="Processes for the per-event work, the observers' tracks and the evaluations (0: one per core; Linux; the results do not depend on it).")]
 
 TABLE_COLUMNS = ["star_id", "site", "closest_approach_utc", "min_ring_radius_km", "regions",
                  "behind_planet", "vmag", "kmag", "features_crossed", "features_resolvable", "score"]
@@ -54,7 +57,7 @@ def observers(sites, site_names, lat, lon, height, geocentre) -> list:
     if site_names and sites is None:
         raise InputError("--site needs --sites FILE (a TOML file of [[sites]])")
     if sites is not None:
-        out += [find_site(sites, n) for n in site_names] if site_names else load_sites(sites)
+        out += [_catalogs.find_site(sites, n) for n in site_names] if site_names else _catalogs.load_sites(sites)
     if lat is not None or lon is not None:
         out.append(common.observer(lat=lat, lon=lon, height=height))
     if geocentre:
@@ -90,12 +93,12 @@ def open_catalog(catalog, columns, allow_no_motion):
 
     if is_partitioned(catalog):
         return ParquetCatalog(catalog, column_map(columns), allow_no_motion)
-    return read_catalog_table(catalog, column_map(columns), allow_no_motion)
+    return _catalogs.read_catalog_table(catalog, column_map(columns), allow_no_motion)
 
 
 def run_find(body, catalog, columns, allow_no_motion, start, end, sites, site, lat, lon, height,
              geocentre, kernel, no_deflection, barycentre, margin, include_misses, settings,
-             weights, zones, progress, engine="local", scheduler=None):
+             weights, zones, progress, engine="local", scheduler=None, jobs=1):
     """Search, then (unless zones is False) evaluate and score: (rows, meta, result)."""
     if catalog is None:
         raise InputError("give the star catalog: --catalog FILE (CSV, ECSV, VOTable, Parquet "
@@ -110,27 +113,28 @@ def run_find(body, catalog, columns, allow_no_motion, start, end, sites, site, l
     w = ranking.load_weights(weights) if zones else None
     search.check_window(b, window, kernel)  # before reading a large catalog
     table = open_catalog(catalog, columns, allow_no_motion)
-    corrections = Corrections(deflection=not no_deflection, barycentre_only=barycentre)
+    corrections = _geometry.Corrections(deflection=not no_deflection, barycentre_only=barycentre)
     result = search.find_events(b, table, window, obs, kernels=kernel, corrections=corrections,
                                 margin_km=margin, include_misses=include_misses,
-                                progress=progress, engine=engine, scheduler=scheduler)
+                                progress=progress, engine=engine, scheduler=scheduler,
+                                jobs=jobs)
     if getattr(table, "report", None) is not None:
         ranking.print_note(table.report.summary())
     if zones:
         ranking.score_events(result, kernels=kernel, corrections=corrections, settings=settings,
-                             weights=w, progress=progress)
+                             weights=w, progress=progress, jobs=jobs)
     return ranking.event_rows(result), result.meta, result
 
 
 def output(rows, meta, fmt, out, overwrite, table_columns, header):
     if fmt == "table":
-        text = render(rows, meta, fmt, columns=table_columns, header=header)
+        text = _tables.render(rows, meta, fmt, columns=table_columns, header=header)
     elif fmt == "csv":
         flat = [{k: v for k, v in r.items() if k not in NESTED} for r in rows]
-        text = render(flat, meta, fmt)
+        text = _tables.render(flat, meta, fmt)
     else:
-        text = render(rows, meta, fmt)
-    emit(text, out, overwrite)
+        text = _tables.render(rows, meta, fmt)
+    _tables.emit(text, out, overwrite)
 
 
 def register(app: typer.Typer) -> None:
@@ -151,15 +155,15 @@ def register(app: typer.Typer) -> None:
         luminosity_class: o.LuminosityClass = "auto", min_snr: o.MinSnr = 3.0,
         weights: Weights = None, no_zones: NoZones = False, chart: Chart = None,
         progress: Progress = None, engine: Engine = "local", scheduler: Scheduler = None,
-        fmt: o.Format = "table", out: o.Out = None, overwrite: o.Overwrite = False,
+        jobs: Jobs = 1, fmt: o.Format = "table", out: o.Out = None, overwrite: o.Overwrite = False,
     ):
         """Candidate events of a star catalog over a window, per site, with zones and scores.
 
         Example: occplan find --body saturn --catalog stars.csv --start 2027-01-01 --end
         2028-01-01 --sites sites.toml --format json --out season.json
         """
-        fmt = check_format(fmt)
-        check_out(out, overwrite)
+        fmt = _tables.check_format(fmt)
+        _tables.check_out(out, overwrite)
         if chart is not None:
             from ..season_chart import check_chart_path
 
@@ -169,13 +173,13 @@ def register(app: typer.Typer) -> None:
         rows, meta, result = run_find(body, catalog, column, allow_no_motion, start, end, sites,
                                       site, lat, lon, height, geocentre, kernel, no_deflection,
                                       barycentre, margin, include_misses, settings, weights,
-                                      not no_zones, progress, engine, scheduler)
+                                      not no_zones, progress, engine, scheduler, jobs)
         info = meta["search"]
         header = (f"# {meta['body']}: {info['stars_searched']} stars searched, "
                   f"{info['candidates']} geocentric candidates, {len(rows)} events "
                   f"{meta['start_utc']} .. {meta['end_utc']}\n# threshold: {info['threshold']}\n")
         cols = [c for c in TABLE_COLUMNS if no_zones is False or c not in ("features_crossed", "features_resolvable", "score")]
-        with all_or_none():  # the table and the chart appear together or not at all
+        with _tables.all_or_none():  # the table and the chart appear together or not at all
             if chart is not None:
                 from ..season_chart import write_season_chart
 

@@ -8,8 +8,9 @@ import platform
 import typer
 
 from .. import __version__
-from ..ephemeris import get_ephemeris, time_scale_info
 from . import options as o
+
+_ephemeris = o.lazy("occplan.ephemeris")
 
 
 def register(app: typer.Typer) -> None:
@@ -31,7 +32,7 @@ def register(app: typer.Typer) -> None:
             from ..errors import InputError
 
             raise InputError(f"--format {fmt!r}: occplan info writes table or json")
-        eph = get_ephemeris(tuple(str(k) for k in (kernel or [])))
+        eph = _ephemeris.get_ephemeris(tuple(str(k) for k in (kernel or [])))
         data = {
             "occplan": __version__, "python": platform.python_version(),
             "packages": {"skyfield": skyfield.__version__, "numpy": numpy.__version__,
@@ -39,7 +40,7 @@ def register(app: typer.Typer) -> None:
                          "astropy-iers-data": astropy_iers_data.__version__,
                          "shapely": shapely.__version__},
             "kernels": eph.kernels(),
-            **time_scale_info(),
+            **_ephemeris.time_scale_info(),
         }
         if fmt == "json":
             typer.echo(json.dumps(data, indent=1))

@@ -8,9 +8,10 @@ from typing import Annotated, Optional
 import typer
 
 from ..errors import InputError
-from ..tables import check_format, check_out, emit, render
-from . import common
 from . import options as o
+
+common = o.lazy("occplan.cli.common")
+_tables = o.lazy("occplan.tables")
 
 Chart = Annotated[Optional[Path], typer.Option("--chart", help="Also draw the ring-plane coverage (rings seen pole-on, each station's crossings) into this .png/.pdf.")]
 Choose = Annotated[int, typer.Option("--choose", help="How many stations to pick greedily by the combined score (each with its marginal gain).")]
@@ -47,12 +48,12 @@ def register(app: typer.Typer) -> None:
         from ..network import choose_stations, evaluate_network, ring_plane_coverage
         from ..plotting import save_axes_figure
 
-        fmt = check_format(fmt)
-        check_out(out, overwrite)
+        fmt = _tables.check_format(fmt)
+        _tables.check_out(out, overwrite)
         if chart is not None:
             if chart.suffix.lower() not in (".png", ".pdf"):
                 raise InputError(f"--chart {chart} must end in .png or .pdf")
-            check_out(chart, overwrite)
+            _tables.check_out(chart, overwrite)
         if choose < 1:
             raise InputError(f"--choose {choose} must be at least 1")
         if not 0.0 < clear_sky <= 1.0:
@@ -92,7 +93,7 @@ def register(app: typer.Typer) -> None:
         header = (f"# {b.name}: one event from {len(stations)} stations; the {len(picked)} chosen "
                   f"greedily by the combined score (each feature once; another station adds by how "
                   f"far apart in ring longitude it samples a feature)\n")
-        emit(render(rows, meta, fmt, STATION_COLUMNS if fmt == "table" else None,
+        _tables.emit(_tables.render(rows, meta, fmt, STATION_COLUMNS if fmt == "table" else None,
                     header if fmt == "table" else None), out, overwrite)
         if chart is not None:
             ax = ring_plane_coverage(res, b)
@@ -125,5 +126,5 @@ def _season(path, choose, clear_sky, fmt, out, overwrite):
     header = (f"# {meta.get('body')}: stations for a season of {out_meta['events']} events, the "
               f"{len(picked)} chosen greedily by the season total"
               + (f" expected at clear-sky probability {clear_sky:g}" if clear_sky < 1 else "") + "\n")
-    emit(render(table, out_meta, fmt, SEASON_COLUMNS if fmt == "table" else None,
+    _tables.emit(_tables.render(table, out_meta, fmt, SEASON_COLUMNS if fmt == "table" else None,
                 header if fmt == "table" else None), out, overwrite)

@@ -18,6 +18,23 @@ import typer
 
 from ..errors import OccplanError
 
+
+def lazy(name: str):
+    """The module ``name``, executed on first attribute access (the standard library's
+    ``importlib.util.LazyLoader``): command modules import the library this way, so that
+    ``occplan --help`` loads neither numpy nor scipy."""
+    import importlib.util
+
+    if name in sys.modules:
+        return sys.modules[name]
+    spec = importlib.util.find_spec(name)
+    loader = importlib.util.LazyLoader(spec.loader)
+    spec.loader = loader
+    module = importlib.util.module_from_spec(spec)
+    sys.modules[name] = module
+    loader.exec_module(module)
+    return module
+
 # --- choices (the help lists them; typer refuses anything else in one line) ------------------
 
 

@@ -8,9 +8,10 @@ from typing import Annotated
 import typer
 
 from ..errors import InputError
-from ..tables import check_out
-from . import common
 from . import options as o
+
+common = o.lazy("occplan.cli.common")
+_tables = o.lazy("occplan.tables")
 
 FIGURE_SUFFIXES = (".png", ".pdf")
 PANEL_CHOICES = ("all", "sky", "radius", "coverage")
@@ -25,7 +26,7 @@ def _check_figure_out(out: Path, overwrite: bool, panel: str) -> None:
         raise InputError(f"--out {out} must end in .png or .pdf")
     if panel not in PANEL_CHOICES:
         raise InputError(f"--panel {panel!r} is not one of {', '.join(PANEL_CHOICES)}")
-    check_out(out, overwrite)  # a folder, a missing folder, no permission, an existing file
+    _tables.check_out(out, overwrite)  # a folder, a missing folder, no permission, an existing file
 
 
 def register(app: typer.Typer) -> None:

@@ -6,12 +6,13 @@ from typing import Annotated, Optional
 
 import typer
 
-from .. import ranking
-from ..bodies import get_body
 from ..errors import InputError
-from ..tables import all_or_none, check_format, check_out
 from . import find as f
 from . import options as o
+
+ranking = o.lazy("occplan.ranking")
+_bodies = o.lazy("occplan.bodies")
+_tables = o.lazy("occplan.tables")
 
 From = Annotated[Optional[str], typer.Option("--from", help="A find result (.json or .ecsv written by occplan find); without it, rank runs the search.")]
 Top = Annotated[Optional[int], typer.Option("--top", help="Keep only the N best events.")]
@@ -40,7 +41,7 @@ def register(app: typer.Typer) -> None:
         max_order: o.MaxOrder = 3, sigma: o.Sigma = None,
         luminosity_class: o.LuminosityClass = "auto", min_snr: o.MinSnr = 3.0,
         weights: f.Weights = None, top: Top = None, chart: f.Chart = None,
-        progress: f.Progress = None,
+        progress: f.Progress = None, jobs: f.Jobs = 1,
         fmt: o.Format = "table", out: o.Out = None, overwrite: o.Overwrite = False,
     ):
         """Rank events by resonance coverage: score = sum over zone crossings of its factors.
@@ -48,8 +49,8 @@ def register(app: typer.Typer) -> None:
         Example: occplan rank --from season.json --weights my_weights.toml --top 20
         (or the occplan find options to search and rank in one go)
         """
-        fmt = check_format(fmt)
-        check_out(out, overwrite)
+        fmt = _tables.check_format(fmt)
+        _tables.check_out(out, overwrite)
         if chart is not None:
             from ..season_chart import check_chart_path
 
@@ -74,7 +75,7 @@ def register(app: typer.Typer) -> None:
             else:
                 rows = ranking.rescore_rows(rows, meta, w)
                 meta.setdefault("ranking", {})["weights"] = w.describe()
-            b = get_body(meta["body"] if str(meta.get("body_file", "")).startswith("occplan/")
+            b = _bodies.get_body(meta["body"] if str(meta.get("body_file", "")).startswith("occplan/")
                          or not meta.get("body_file") else meta["body_file"])
             window = (meta["start_utc"], meta["end_utc"])
             kernels = kernel
@@ -82,7 +83,7 @@ def register(app: typer.Typer) -> None:
             rows, meta, result = f.run_find(body, catalog, column, allow_no_motion, start, end,
                                             sites, site, lat, lon, height, geocentre, kernel,
                                             no_deflection, barycentre, margin, False, settings,
-                                            weights, True, progress)
+                                            weights, True, progress, jobs=jobs)
             b = result.body
             window = (meta["start_utc"], meta["end_utc"])
             kernels = kernel
@@ -92,7 +93,7 @@ def register(app: typer.Typer) -> None:
         header = (f"# {meta['body']}: {len(ranked)} events ranked by the ring features they resolve; "
                   f"{ranking.SCORE_FORMULA} (weights: "
                   + str(meta.get("ranking", {}).get("weights", {}).get("path", "")) + ")\n")
-        with all_or_none():  # the table and the chart appear together or not at all
+        with _tables.all_or_none():  # the table and the chart appear together or not at all
             if chart is not None:
                 from ..season_chart import write_season_chart
 

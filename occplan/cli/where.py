@@ -9,9 +9,10 @@ from typing import Annotated, Optional
 import typer
 
 from ..errors import InputError
-from ..tables import all_or_none, check_format, check_out, emit, render
-from . import common
 from . import options as o
+
+common = o.lazy("occplan.cli.common")
+_tables = o.lazy("occplan.tables")
 
 Map = Annotated[Optional[Path], typer.Option("--map", help="Also draw the world map (.png or .pdf).")]
 GeoJson = Annotated[Optional[Path], typer.Option("--geojson", help="Also write the grid as GeoJSON points (for GIS).")]
@@ -48,14 +49,14 @@ def register(app: typer.Typer) -> None:
         from ..plotting import save_axes_figure
         from ..world import world_grid, world_map
 
-        fmt = check_format(fmt)
-        check_out(out, overwrite)
+        fmt = _tables.check_format(fmt)
+        _tables.check_out(out, overwrite)
         if map_out is not None:
             if map_out.suffix.lower() not in (".png", ".pdf"):
                 raise InputError(f"--map {map_out} must end in .png or .pdf")
-            check_out(map_out, overwrite)
+            _tables.check_out(map_out, overwrite)
         if geojson is not None:
-            check_out(geojson, overwrite)
+            _tables.check_out(geojson, overwrite)
         grid = world_grid(common.body(body),
                           common.star(star, pm_ra, pm_dec, parallax, rv, star_epoch, vmag, kmag,
                                       catalog, star_id),
@@ -74,10 +75,10 @@ def register(app: typer.Typer) -> None:
         header = (f"# {grid.body.name}: {int(grid.crosses_rings.sum())} of {len(rows)} grid points "
                   f"({resolution:g} deg) see the chord cross the rings, "
                   f"{int(grid.observable.sum())} can observe it; the observable ones:\n")
-        with all_or_none():
-            emit(render(shown, grid.meta, fmt, COLUMNS if fmt == "table" else None,
+        with _tables.all_or_none():
+            _tables.emit(_tables.render(shown, grid.meta, fmt, COLUMNS if fmt == "table" else None,
                         header if fmt == "table" else None), out, overwrite)
             if geojson is not None:
-                emit(json.dumps(grid.geojson()) + "\n", geojson, overwrite)
+                _tables.emit(json.dumps(grid.geojson()) + "\n", geojson, overwrite)
             if map_out is not None:
                 save_axes_figure(world_map(grid), map_out, overwrite)

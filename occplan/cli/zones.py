@@ -7,12 +7,14 @@ from typing import Annotated
 import typer
 
 from .. import __version__
-from ..bodies import get_body
+from ..constants import DEFAULT_MAX_M
 from ..errors import InputError
-from ..features import body_features, load_settings
-from ..resonances import DEFAULT_MAX_M, find_resonances
-from ..tables import check_format, check_out, emit, render
 from . import options as o
+
+_bodies = o.lazy("occplan.bodies")
+_features = o.lazy("occplan.features")
+_resonances = o.lazy("occplan.resonances")
+_tables = o.lazy("occplan.tables")
 
 COLUMNS = ["strong", "label", "satellite", "kind", "wave", "m", "order", "resonance_radius_km",
            "torque_per_sigma", "region", "propagation", "zone_inner_km", "zone_outer_km",
@@ -43,9 +45,9 @@ def register(app: typer.Typer) -> None:
 
         Example: occplan zones --body saturn --rmin 120000 --rmax 137000
         """
-        fmt = check_format(fmt)
-        check_out(out, overwrite)
-        b = get_body(body)
+        fmt = _tables.check_format(fmt)
+        _tables.check_out(out, overwrite)
+        b = _bodies.get_body(body)
         meta = {
             "occplan_version": __version__, "body": b.name, "body_file": b.path,
             "gravity_source": b.sources.get("gravity", ""),
@@ -59,11 +61,11 @@ def register(app: typer.Typer) -> None:
             if min_torque is not None or outside_rings:
                 raise InputError("--min-torque and --outside-rings apply to --terms listings; "
                                  "the feature list has its own documented thresholds")
-            feats = body_features(b, max_order=max_order, sigma_g_cm2=sigma,
+            feats = _features.body_features(b, max_order=max_order, sigma_g_cm2=sigma,
                                   viscosity_cm2_s=viscosity, max_m=max_m, rmin_km=rmin,
                                   rmax_km=rmax, satellites=tuple(satellite or ()))
             rows = [f.to_row() for f in feats]
-            meta.update({"listing": "features", "feature_settings": load_settings().describe(),
+            meta.update({"listing": "features", "feature_settings": _features.load_settings().describe(),
                          "units": {"torque_dyn_cm": "dyn cm", "amplitude": "peak fractional "
                                    "surface-density amplitude (bending waves: slope); 1 for edges "
                                    "and narrow rings"}})
@@ -74,10 +76,10 @@ def register(app: typer.Typer) -> None:
                     row["torque_dyn_cm"] = f"{row['torque_dyn_cm']:.2e}"
                     row["amplitude"] = f"{row['amplitude']:.3g}"
                     row["note"] = row["note"][:70]
-            emit(render(rows, meta, fmt, FEATURE_COLUMNS if fmt == "table" else None,
+            _tables.emit(_tables.render(rows, meta, fmt, FEATURE_COLUMNS if fmt == "table" else None,
                         header if fmt == "table" else None), out, overwrite)
             return
-        res = find_resonances(b, rmin_km=rmin, rmax_km=rmax, max_order=max_order,
+        res = _resonances.find_resonances(b, rmin_km=rmin, rmax_km=rmax, max_order=max_order,
                               satellites=satellite, min_torque=min_torque, sigma_g_cm2=sigma,
                               viscosity_cm2_s=viscosity, max_m=max_m)
         if not outside_rings:
@@ -101,5 +103,5 @@ def register(app: typer.Typer) -> None:
             for row in rows:
                 row["strong"] = "*" if row["strong"] else ""
                 row["torque_per_sigma"] = f"{row['torque_per_sigma']:.2e}"
-        emit(render(rows, meta, fmt, COLUMNS if fmt == "table" else None,
+        _tables.emit(_tables.render(rows, meta, fmt, COLUMNS if fmt == "table" else None,
                     header if fmt == "table" else None), out, overwrite)
