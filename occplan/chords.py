@@ -35,8 +35,15 @@ ASPECT_COLUMNS = ["time_utc", "opening_angle_deg", "sun_opening_angle_deg",
 @dataclass
 class ChordResult:
     track: Track
-    rows: list
     meta: dict
+
+    @property
+    def rows(self) -> list[dict]:
+        """One dict per sample (built on demand: the text formats write columns)."""
+        return self.track.rows()
+
+    def columns(self) -> dict:
+        return self.track.columns()
 
     def to_table(self):
         """The chord as an astropy QTable: units on every physical column, a UTC Time column
@@ -142,7 +149,7 @@ def chord(body, star, observer: Observer, window, step_s: float = 60.0, kernels=
         f"visible rows within twice the outer ring radius: ring radius within "
         f"{INTERPOLATION_SKY_TOL_M:g} m / |sin B*| of exact geometry (B* = star_elevation_deg), "
         f"{INTERPOLATION_SKY_TOL_M:g} m in the sky plane; measured, tests/test_track_properties.py")
-    return ChordResult(track=track, rows=track.rows(), meta=meta)
+    return ChordResult(track=track, meta=meta)
 
 
 def summary_text(result: ChordResult) -> str:

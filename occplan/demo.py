@@ -164,7 +164,7 @@ def _network_page(out, name, body, rows, star_of, sites, settings, weights):
     where_rel = f"figures/where_{name}.png"
     grid = world_grid(body, star, window, resolution_deg=5.0, step_s=60.0)
     # what a station with the default telescope would score at a few observable places
-    score_places(grid, telescope=load_telescope(), spacing_deg=30.0, max_places=10)
+    score_places(grid, telescope=load_telescope(), spacing_deg=30.0, max_places=10, jobs=0)
     save_axes_figure(world_map(grid), out / where_rel, overwrite=True)
     by_name = {st.name: st for st in res.stations}
     table = []
@@ -223,12 +223,13 @@ def _build(out: Path, camp: dict, here: Path, top_events, progress, log) -> Demo
     from .catalogs import load_sites, read_catalog_table
     from .chords import chord
     from .events import evaluate_event, summary_text
+    from .parallel import map_indexed
     from .plotting import save_event_figures
     from .ranking import RankSettings, event_rows, load_weights, rank_rows, score_events
     from .report import write_report
     from .search import find_events
     from .season_chart import write_season_chart
-    from .tables import _plain, render
+    from .tables import _plain, render, render_columns
     from .telescope import load_telescope
     from .bodies import get_body
     from .ephemeris import parse_utc, tdb_s_of
@@ -278,10 +279,15 @@ def _build(out: Path, camp: dict, here: Path, top_events, progress, log) -> Demo
         write_season_chart(out / chart_rel, rows, body, window, overwrite=True,
                            title=f"{body.name}: candidate events of the season")
         result.files.append(out / chart_rel)
-        events_out = []
         site_by_name = {s.name: s for s in sites}
         star_of = {(ev.star_id, ev.site_name): ev.candidate.star for ev in found.events}
-        for i, row in enumerate([r for r in rows if r.get("score")][:n_top], start=1):
+        top_rows = [r for r in rows if r.get("score")][:n_top]
+
+        def event_page(k, name=name, body=body, top_rows=top_rows, star_of=star_of,
+                       site_by_name=site_by_name):
+            """One top event's figure, JSON, chord table and summary (a forked worker may
+            write them: each event has its own files)."""
+            i, row = k + 1, top_rows[k]
             site = site_by_name[row["site"]]
             star = star_of[(row["star_id"], row["site"])]
             tel = load_telescope(site.telescope)
@@ -301,17 +307,25 @@ def _build(out: Path, camp: dict, here: Path, top_events, progress, log) -> Demo
             ev_json.write_text(json.dumps(_plain(rep.to_json()), indent=1) + "\n", encoding="utf-8")
             chord_res = chord(body, star, site.observer(), (a, b), step_s=1.0)
             chord_path = out / "events" / f"{stem}_chord.ecsv"
-            chord_path.write_text(render(chord_res.rows, chord_res.meta, "ecsv"), encoding="utf-8")
+            chord_path.write_text(render_columns(chord_res.columns(), chord_res.meta, "ecsv"),
+                                  encoding="utf-8")
             summary = summary_text(rep)
             (out / "events" / f"{stem}.txt").write_text(summary, encoding="utf-8")
-            result.files += [out / fig_rel, ev_json, chord_path, out / "events" / f"{stem}.txt"]
-            events_out.append({
+            page = {
                 "title": f"{body.name} #{i}: star {row['star_id']} from {row['site']}, "
                          f"{row['closest_approach_utc'][:16]} UTC (score {row['score']:.2f})",
                 "summary": summary, "figure": fig_rel,
                 "chord_table": f"events/{stem}_chord.ecsv", "json": f"events/{stem}.json",
-            })
-            log(f"[{name}] #{i} star {row['star_id']} from {row['site']}: score "
+            }
+            return page, [out / fig_rel, ev_json, chord_path, out / "events" / f"{stem}.txt"]
+
+        events_out = []
+        for k, (page, files) in enumerate(map_indexed(event_page, len(top_rows), jobs=0,
+                                                      min_items_per_job=1)):
+            row = top_rows[k]
+            result.files += files
+            events_out.append(page)
+            log(f"[{name}] #{k + 1} star {row['star_id']} from {row['site']}: score "
                 f"{row['score']:.2f}, {row['features_resolvable']} of {row['features_crossed']} "
                 "features resolved")
         network = _network_page(out, name, body, rows, star_of, sites, settings, weights)

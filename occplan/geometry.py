@@ -322,24 +322,26 @@ class Track:
     def regions(self):
         return self.body.region_at(self.ring_radius_km)
 
+    def columns(self) -> dict:
+        """The chord's columns (field names of docs/output_schema.md), one array each."""
+        return {
+            "time_utc": np.array(utc_iso(time_from_tdb_s(self.tdb_s)), dtype=object),
+            "ring_radius_km": np.asarray(self.ring_radius_km, dtype=float),
+            "ring_longitude_deg": np.asarray(self.ring_longitude_deg, dtype=float),
+            "radial_velocity_km_s": np.asarray(self.radial_velocity_km_s, dtype=float),
+            "sky_f_km": np.asarray(self.sky_f_km, dtype=float),
+            "sky_g_km": np.asarray(self.sky_g_km, dtype=float),
+            "opening_angle_deg": np.asarray(self.opening_angle_deg, dtype=float),
+            "behind_planet": np.asarray(self.behind_planet, dtype=bool),
+            "region": np.asarray(self.regions(), dtype=object),
+        }
+
     def rows(self) -> list[dict]:
         """Chord rows with the field names of docs/output_schema.md."""
-        times = utc_iso(time_from_tdb_s(self.tdb_s))
-        regions = self.regions()
-        return [
-            {
-                "time_utc": times[i],
-                "ring_radius_km": float(self.ring_radius_km[i]),
-                "ring_longitude_deg": float(self.ring_longitude_deg[i]),
-                "radial_velocity_km_s": float(self.radial_velocity_km_s[i]),
-                "sky_f_km": float(self.sky_f_km[i]),
-                "sky_g_km": float(self.sky_g_km[i]),
-                "opening_angle_deg": float(self.opening_angle_deg[i]),
-                "behind_planet": bool(self.behind_planet[i]),
-                "region": regions[i],
-            }
-            for i in range(len(self.tdb_s))
-        ]
+        cols = self.columns()
+        names = list(cols)
+        return [dict(zip(names, values))
+                for values in zip(*(np.asarray(c).tolist() for c in cols.values()))]
 
 
 class _Interpolant:

@@ -30,9 +30,9 @@ def available_cores() -> int:
         return max(os.cpu_count() or 1, 1)
 
 
-def effective_jobs(jobs: int, n_items: int) -> int:
+def effective_jobs(jobs: int, n_items: int, min_items_per_job: int = MIN_ITEMS_PER_JOB) -> int:
     """The number of processes :func:`map_indexed` will use: ``jobs`` (0: one per core),
-    at most one per :data:`MIN_ITEMS_PER_JOB` items, and 1 where ``fork`` is not used.
+    at most one per ``min_items_per_job`` items, and 1 where ``fork`` is not used.
 
     Raises
     ------
@@ -46,21 +46,23 @@ def effective_jobs(jobs: int, n_items: int) -> int:
         jobs = available_cores()
     if not sys.platform.startswith("linux"):
         return 1
-    return max(1, min(jobs, n_items // MIN_ITEMS_PER_JOB))
+    return max(1, min(jobs, n_items // max(int(min_items_per_job), 1)))
 
 
 def _call(i: int):
     return i, _FUNC(i)
 
 
-def map_indexed(func, n_items: int, jobs: int = 1, advance=None) -> list:
+def map_indexed(func, n_items: int, jobs: int = 1, advance=None,
+                min_items_per_job: int = MIN_ITEMS_PER_JOB) -> list:
     """``[func(0), ..., func(n_items - 1)]``, on :func:`effective_jobs` processes.
 
     ``advance()`` is called once per finished item (a progress bar).  An exception in
-    ``func`` is raised here, as in a plain loop.
+    ``func`` is raised here, as in a plain loop.  ``min_items_per_job`` 1 suits items that
+    take seconds each (a figure).
     """
     global _FUNC
-    n_jobs = effective_jobs(jobs, n_items)
+    n_jobs = effective_jobs(jobs, n_items, min_items_per_job)
     if n_jobs <= 1:
         out = []
         for i in range(n_items):
@@ -71,14 +73,34 @@ def map_indexed(func, n_items: int, jobs: int = 1, advance=None) -> list:
     import multiprocessing
 
     out = [None] * n_items
+    # the first item runs here: the caches it fills (catalogues, tables) are then inherited
+    # by every worker instead of being rebuilt in each
+    out[0] = func(0)
+    if advance is not None:
+        advance()
     _FUNC = func
+    pool = multiprocessing.get_context("fork").Pool(n_jobs, initializer=_worker_start)
     try:
-        with multiprocessing.get_context("fork").Pool(n_jobs) as pool:
-            chunk = max(1, n_items // (8 * n_jobs))
-            for i, result in pool.imap_unordered(_call, range(n_items), chunksize=chunk):
-                out[i] = result
-                if advance is not None:
-                    advance()
+        chunk = max(1, (n_items - 1) // (8 * n_jobs))
+        for i, result in pool.imap_unordered(_call, range(1, n_items), chunksize=chunk):
+            out[i] = result
+            if advance is not None:
+                advance()
+        pool.close()  # all results are in: the workers leave on their own
+    except BaseException:
+        pool.terminate()
+        raise
     finally:
+        pool.join()
         _FUNC = None
     return out
+
+
+def _worker_start() -> None:
+    """A forked worker takes the default action on SIGTERM (the parent's handlers, such as
+    the one that cleans up a file being written, are not the worker's business) and leaves
+    SIGINT to the parent, which stops the pool."""
+    import signal
+
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)
+    signal.signal(signal.SIGINT, signal.SIG_IGN)

@@ -238,16 +238,18 @@ def coastlines():
 
 
 def score_places(grid: WorldGrid, *, telescope=None, spacing_deg: float = 15.0,
-                 max_places: int = 60, kernels=None, progress=None) -> WorldGrid:
+                 max_places: int = 60, kernels=None, progress=None, jobs: int = 1) -> WorldGrid:
     """The event's score (:mod:`occplan.ranking`) for a station with a reference telescope at
     a sample of the observable grid places: one per ``spacing_deg`` cell (the place nearest
     the cell's centre), at most ``max_places``.  Each is a full evaluation of that site's
     chord (features, resolution, SNR with the site's airmass, observability), so the map
-    shows what a station there would record; the other places stay nan.  Sets
-    ``grid.score`` and returns the grid."""
+    shows what a station there would record; the other places stay nan.  ``jobs`` processes
+    share the places (:func:`occplan.parallel.map_indexed`).  Sets ``grid.score`` and returns
+    the grid."""
     from .catalogs import Site
     from .ephemeris import parse_utc, tdb_s_of
     from .errors import GeometryError, InputError
+    from .parallel import map_indexed
     from .ranking import EVAL_PAD_S, RankSettings, evaluate_and_score
 
     if not (math.isfinite(spacing_deg) and spacing_deg > 0):
@@ -263,7 +265,9 @@ def score_places(grid: WorldGrid, *, telescope=None, spacing_deg: float = 15.0,
             cells[key] = (d, i)
     chosen = sorted(i for _, i in cells.values())[:max(0, int(max_places))]
     settings = RankSettings(telescope=telescope)
-    for i in chosen:
+
+    def one(k):
+        i = chosen[k]
         site = Site(f"grid {grid.lat_deg[i]:+.1f} {grid.lon_deg[i]:+.1f}", float(grid.lat_deg[i]),
                     float(grid.lon_deg[i]), 0.0)
         a = tdb_s_of(parse_utc(grid.start_utc[i])) - EVAL_PAD_S
@@ -271,11 +275,15 @@ def score_places(grid: WorldGrid, *, telescope=None, spacing_deg: float = 15.0,
         try:
             _, sc, _ = evaluate_and_score(grid.body, grid.star, site.observer(), (a, b),
                                           site=site, kernels=kernels, settings=settings)
-            score[i] = sc["score"]
+            return sc["score"], site.name
         except GeometryError:
-            score[i] = 0.0
+            return 0.0, site.name
+
+    done = map_indexed(one, len(chosen), jobs, min_items_per_job=2)
+    for i, (value, name) in zip(chosen, done):
+        score[i] = value
         if progress:
-            progress(site.name)
+            progress(name)
     grid.score = score
     grid.meta["score"] = {"places": len(chosen), "spacing_deg": spacing_deg,
                           "telescope": getattr(telescope, "name", "default profile"),

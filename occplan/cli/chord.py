@@ -41,5 +41,5 @@ def register(app: typer.Typer) -> None:
             deflection=not no_deflection, barycentre_only=barycentre,
         )
         header = chords.summary_text(result) if fmt == "table" else None
-        text = _tables.render(result.rows, result.meta, fmt, columns=chords.CHORD_COLUMNS, header=header)
+        text = _tables.render_columns(result.columns(), result.meta, fmt, header=header)
         _tables.emit(text, out, overwrite)

@@ -34,7 +34,7 @@ class EngineName(StrEnum):
 Engine = Annotated[EngineName, typer.Option("--engine", help="Where the catalog search runs: local (this process) or dask (per catalog piece on a Dask cluster).")]
 Scheduler = Annotated[Optional[str], typer.Option("--scheduler", help="Dask scheduler address for --engine dask, e.g. tcp://host:8786 (default: a local cluster of 2 workers).")]
 Progress = Annotated[Optional[bool], typer.Option("--progress/--no-progress", help="Progress bars on stderr (default: when stderr is a terminal).")]
-Jobs = Annotated[int, typer.Option("--jobs", metavar="N", help="Processes for the per-event work, the observers' tracks and the evaluations (0: one per core; Linux; the results do not depend on it).")]
+Jobs = o.Jobs
 
 TABLE_COLUMNS = ["star_id", "site", "closest_approach_utc", "min_ring_radius_km", "regions",
                  "behind_planet", "vmag", "kmag", "features_crossed", "features_resolvable", "score"]

@@ -38,7 +38,7 @@ def register(app: typer.Typer) -> None:
         resolution: Resolution = 5.0, min_altitude: MinAltitude = 20.0, sun_limit: SunLimit = -12.0,
         kernel: o.Kernel = None, map_out: Map = None, geojson: GeoJson = None,
         vmag: o.Vmag = None, kmag: o.Kmag = None, telescope: o.Telescope = None,
-        score_every: ScoreEvery = 0.0,
+        score_every: ScoreEvery = 0.0, jobs: o.Jobs = 1,
         fmt: o.Format = "table", out: o.Out = None, overwrite: o.Overwrite = False,
     ):
         """Where on Earth one event is observable and which rings each place's chord reaches.
@@ -69,7 +69,7 @@ def register(app: typer.Typer) -> None:
             from ..world import score_places
 
             score_places(grid, telescope=load_telescope(telescope), spacing_deg=score_every,
-                         kernels=kernel)
+                         kernels=kernel, jobs=jobs)
         rows = grid.rows()
         shown = rows if fmt != "table" else [r for r in rows if r["observable"]]
         header = (f"# {grid.body.name}: {int(grid.crosses_rings.sum())} of {len(rows)} grid points "
