@@ -430,6 +430,9 @@ def zone_crossings(track: Track, features, *, cadence_s: float, fresnel_km: floa
         fill = np.where(narrow & (element > lam), lam / np.where(element > 0, element, 1.0), 1.0)
         snr, contrast = snr * fill, contrast * fill
     # 3. one record per crossing
+    hidden_at = np.zeros(n, dtype=bool)
+    for h0, h1 in hidden:
+        hidden_at |= (when >= h0) & (when <= h1)
     out = []
     for i, (feat, side, _, _, _) in enumerate(found):
         reasons = []
@@ -466,7 +469,7 @@ def zone_crossings(track: Track, features, *, cadence_s: float, fresnel_km: floa
         if not whole:
             ok = False
             reasons.append("only part of the zone crossed on this side")
-        behind = any(h0 <= when[i] <= h1 for h0, h1 in hidden)
+        behind = bool(hidden_at[i])
         out.append(ZoneCrossing(
             feature=feat, side=side, time_s=float(t_res[i]), start_s=float(start[i]),
             end_s=float(end[i]), radial_velocity_km_s=float(v_here[i]),

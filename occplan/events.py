@@ -324,9 +324,12 @@ def evaluate_event(body, star, observer: Observer, window, *, telescope=None, ke
                            min_snr=min_snr, hidden=hidden)
     if cond.applicable:
         usable = np.asarray(cond.usable, dtype=float)
-        for z in zones:
-            probe = np.linspace(z.start_s, z.end_s, 5)
-            z.usable = bool(np.all(np.interp(probe, times, usable) > 0.5))
+        if zones:
+            ends = np.array([[z.start_s, z.end_s] for z in zones])
+            probe = ends[:, :1] + (ends[:, 1:] - ends[:, :1]) * np.linspace(0.0, 1.0, 5)
+            ok = np.all(np.interp(probe, times, usable) > 0.5, axis=1)
+            for z, flag in zip(zones, ok):
+                z.usable = bool(flag)
     meta = dict(track.meta)
     from .features import load_settings
 

@@ -659,6 +659,8 @@ def _cell_text(z, status) -> str:
             why = "limited by " + why.split("limited by the ")[-1]
         elif why.startswith("feature SNR") or why.startswith("SNR"):
             why = why.split(" < ")[0].replace("feature SNR per resolution element", "feature SNR")
+        elif why.startswith("only part of the zone"):
+            why = "zone partly crossed"  # the cell holds about 25 characters a line
         return f"{txt}\n{why}"
     return txt
 

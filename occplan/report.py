@@ -181,7 +181,8 @@ def embedded_png(path: Path) -> bytes:
             height = round(im.height * EMBED_MAX_WIDTH_PX / im.width)
             im = im.resize((EMBED_MAX_WIDTH_PX, height), Image.Resampling.LANCZOS)
         buf = io.BytesIO()
-        im.quantize(colors=EMBED_COLOURS).save(buf, format="PNG", optimize=True)
+        # the fast octree palette: line plots and flat colour fills quantize well with it
+        im.quantize(colors=EMBED_COLOURS, method=Image.Quantize.FASTOCTREE).save(buf, format="PNG")
         return buf.getvalue()
 
 

@@ -346,6 +346,9 @@ def star_in_ring_frame(track) -> np.ndarray:
     pole) at the track's closest approach: (s_x, s_y, s_z)."""
     from .constants import J2000_JD_TDB
 
+    cached = getattr(track, "_star_ring_frame", None)
+    if cached is not None and cached[0] == track.closest_approach_s:
+        return cached[1]
     star = track.star
     ra, dec = math.radians(star.ra_deg), math.radians(star.dec_deg)
     s = np.array([math.cos(dec) * math.cos(ra), math.cos(dec) * math.sin(ra), math.sin(dec)])
@@ -353,7 +356,9 @@ def star_in_ring_frame(track) -> np.ndarray:
     n = np.asarray(track.body.pole.unit_vector(jd), dtype=float).reshape(3)
     node = node_direction(n)
     perp = np.cross(n, node)
-    return np.array([s @ node, s @ perp, s @ n])
+    out = np.array([s @ node, s @ perp, s @ n])
+    track._star_ring_frame = (track.closest_approach_s, out)  # the same for every crossing
+    return out
 
 
 # --------------------------------------------------------------------------- crossings
