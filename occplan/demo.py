@@ -154,7 +154,7 @@ def _network_page(out, name, body, rows, star_of, sites, settings, weights):
     star = star_of[(best["star_id"], best["site"])]
     window = (tdb_s_of(parse_utc(best["crossing_start_utc"])) - 900.0,
               tdb_s_of(parse_utc(best["crossing_end_utc"])) + 900.0)
-    res = evaluate_network(body, star, sites, window, settings=settings, weights=weights)
+    res = evaluate_network(body, star, sites, window, settings=settings, weights=weights, jobs=0)
     picked = choose_stations(res, len(sites))
     rel = f"figures/network_{name}.png"
     save_axes_figure(ring_plane_coverage(res, body), out / rel, overwrite=True)
@@ -319,16 +319,24 @@ def _build(out: Path, camp: dict, here: Path, top_events, progress, log) -> Demo
             }
             return page, [out / fig_rel, ev_json, chord_path, out / "events" / f"{stem}.txt"]
 
+        def page_or_network(k, event_page=event_page, name=name, body=body, rows=rows,
+                            star_of=star_of):
+            """Item 0 the network page (the longest), then the event pages."""
+            if k == 0:
+                return _network_page(out, name, body, rows, star_of, sites, settings, weights)
+            return event_page(k - 1)
+
+        done = map_indexed(page_or_network, len(top_rows) + 1, jobs=0, min_items_per_job=1,
+                           first_here=False)
+        network, pages = done[0], done[1:]
         events_out = []
-        for k, (page, files) in enumerate(map_indexed(event_page, len(top_rows), jobs=0,
-                                                      min_items_per_job=1)):
+        for k, (page, files) in enumerate(pages):
             row = top_rows[k]
             result.files += files
             events_out.append(page)
             log(f"[{name}] #{k + 1} star {row['star_id']} from {row['site']}: score "
                 f"{row['score']:.2f}, {row['features_resolvable']} of {row['features_crossed']} "
                 "features resolved")
-        network = _network_page(out, name, body, rows, star_of, sites, settings, weights)
         if network:
             result.files += [out / network["figure"], out / network["where_figure"]]
         bodies_out.append({"body": body.name, "candidates": len(rows), "network": network,

@@ -98,23 +98,30 @@ def combined_score(stations, weights: Weights) -> float:
 
 def evaluate_network(body, star, sites, window_s, *, kernels=None, corrections=None,
                      settings: RankSettings = RankSettings(), weights: Weights | None = None,
-                     progress=None) -> NetworkResult:
-    """Evaluate one event (star, window) from every site of a sites list."""
+                     progress=None, jobs: int = 1) -> NetworkResult:
+    """Evaluate one event (star, window) from every site of a sites list (``jobs`` processes
+    share the sites: :func:`occplan.parallel.map_indexed`)."""
     from .errors import GeometryError
+    from .parallel import map_indexed
 
     weights = weights or load_weights()
-    out = []
-    for site in sites:
+    sites = list(sites)
+
+    def one(i):
+        site = sites[i]
         try:
             records, score, tel = evaluate_and_score(body, star, site.observer(), window_s,
                                                      site=site, kernels=kernels,
                                                      corrections=corrections, settings=settings,
                                                      weights=weights)
-            out.append(StationResult(site.name, records, score, tel))
+            return StationResult(site.name, records, score, tel)
         except GeometryError as exc:
-            out.append(StationResult(site.name, [], {"score": 0.0}, "", error=str(exc)))
-        if progress:
-            progress(site.name)
+            return StationResult(site.name, [], {"score": 0.0}, "", error=str(exc))
+
+    out = map_indexed(one, len(sites), jobs, min_items_per_job=2)
+    if progress:
+        for st in out:
+            progress(st.name)
     return NetworkResult(out, weights)
 
 

@@ -46,6 +46,10 @@ def effective_jobs(jobs: int, n_items: int, min_items_per_job: int = MIN_ITEMS_P
         jobs = available_cores()
     if not sys.platform.startswith("linux"):
         return 1
+    import multiprocessing
+
+    if multiprocessing.current_process().daemon:  # a pool's worker may not start a pool
+        return 1
     return max(1, min(jobs, n_items // max(int(min_items_per_job), 1)))
 
 
@@ -54,12 +58,13 @@ def _call(i: int):
 
 
 def map_indexed(func, n_items: int, jobs: int = 1, advance=None,
-                min_items_per_job: int = MIN_ITEMS_PER_JOB) -> list:
+                min_items_per_job: int = MIN_ITEMS_PER_JOB, first_here: bool = True) -> list:
     """``[func(0), ..., func(n_items - 1)]``, on :func:`effective_jobs` processes.
 
     ``advance()`` is called once per finished item (a progress bar).  An exception in
     ``func`` is raised here, as in a plain loop.  ``min_items_per_job`` 1 suits items that
-    take seconds each (a figure).
+    take seconds each (a figure); so does ``first_here=False``: the first item then goes to
+    a worker too (by default it runs here first, so the caches it fills are inherited).
     """
     global _FUNC
     n_jobs = effective_jobs(jobs, n_items, min_items_per_job)
@@ -73,16 +78,19 @@ def map_indexed(func, n_items: int, jobs: int = 1, advance=None,
     import multiprocessing
 
     out = [None] * n_items
-    # the first item runs here: the caches it fills (catalogues, tables) are then inherited
-    # by every worker instead of being rebuilt in each
-    out[0] = func(0)
-    if advance is not None:
-        advance()
+    start = 0
+    if first_here:
+        # the first item runs here: the caches it fills (catalogues, tables) are then
+        # inherited by every worker instead of being rebuilt in each
+        out[0] = func(0)
+        start = 1
+        if advance is not None:
+            advance()
     _FUNC = func
     pool = multiprocessing.get_context("fork").Pool(n_jobs, initializer=_worker_start)
     try:
-        chunk = max(1, (n_items - 1) // (8 * n_jobs))
-        for i, result in pool.imap_unordered(_call, range(1, n_items), chunksize=chunk):
+        chunk = max(1, (n_items - start) // (8 * n_jobs))
+        for i, result in pool.imap_unordered(_call, range(start, n_items), chunksize=chunk):
             out[i] = result
             if advance is not None:
                 advance()

@@ -36,7 +36,7 @@ def register(app: typer.Typer) -> None:
         catalog: o.Catalog = None, star_id: o.StarId = None,
         sites: o.Sites = None, start: o.Start = None, end: o.End = None,
         kernel: o.Kernel = None, choose: Choose = 3, chart: Chart = None,
-        season: FromFile = None, clear_sky: ClearSky = 1.0,
+        season: FromFile = None, clear_sky: ClearSky = 1.0, jobs: o.Jobs = 1,
         fmt: o.Format = "table", out: o.Out = None, overwrite: o.Overwrite = False,
     ):
         """Evaluate one event from every station of a sites file; pick the stations to ask for.
@@ -70,7 +70,7 @@ def register(app: typer.Typer) -> None:
         s = common.star(star, pm_ra, pm_dec, parallax, rv, star_epoch, vmag, kmag, catalog, star_id)
         window = common.window(start, end)
         stations = load_sites(sites)
-        res = evaluate_network(b, s, stations, window, kernels=kernel)
+        res = evaluate_network(b, s, stations, window, kernels=kernel, jobs=jobs)
         picked = choose_stations(res, choose, clear_sky)
         order = {name: (i + 1, gain, total) for i, (name, gain, total) in enumerate(picked)}
         rows = []
