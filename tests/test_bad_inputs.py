@@ -82,6 +82,11 @@ CASES = [
     (["demo", "--out", "missing/demo"], "does not exist"),
     (["demo", "--top", "0"], "--top"),
     (["demo", "--top", "-1"], "--top"),
+    (["find", "--body", "saturn", "--geocentre", *WINDOW, "--catalog", "stars.csv",
+      "--jobs", "-1"], "--jobs"),
+    (["where", "--body", "saturn", "--star", STAR, *WINDOW, "--jobs", "-2"], "--jobs"),
+    (["network", "--body", "saturn", "--star", STAR, *WINDOW, "--sites", "s.toml",
+      "--jobs", "-1"], "--jobs"),
 ]
 
 
