@@ -1,12 +1,15 @@
-"""The catalog search on a Dask cluster: one task per batch of catalog pieces.
+"""The catalog search on a Dask cluster, in two rounds of tasks.
 
 The client computes the planet's path once (:func:`occplan.search.planet_path`) and the
-pieces it can reach (:meth:`occplan.partitions.ParquetCatalog.select`); the pieces are
-grouped into batches of about equal rows (:func:`batches`); each task reads its batch on a
-worker and runs the prefilter, the screen and the batched refinement on it
-(:func:`occplan.search.search_path`), exactly as the in-process engine does on the same
-stars; the client gathers the candidates.  A catalog that is not partitioned (a StarTable)
-is cut into pieces of ``chunk_rows`` rows and sent to the workers.
+pieces it can reach (:meth:`occplan.partitions.ParquetCatalog.select`).  Round 1: the pieces,
+grouped into batches of about equal rows (:func:`batches`), are read on the workers and
+prefiltered and screened there (:func:`occplan.search.screen_chunks`); only the screened
+stars come back.  Round 2: those stars, cut into groups of about equal refinement work
+(:func:`occplan.search.split_runs`: the stars near the path cluster in a few pieces, so
+batches of equal rows would leave one worker refining most of them), are refined on the
+workers (:func:`occplan.search.refine_all`), exactly as the in-process engine refines the
+same stars; the client gathers the candidates.  A catalog that is not partitioned (a
+StarTable) is cut into pieces of ``chunk_rows`` rows and sent to the workers.
 
 ``scheduler`` is the address of a running scheduler (``tcp://host:8786``); without one a
 ``distributed.LocalCluster`` of ``workers`` single-threaded workers is started for the call.
@@ -14,31 +17,62 @@ is cut into pieces of ``chunk_rows`` rows and sent to the workers.
 
 from __future__ import annotations
 
+import numpy as np
+
 from .errors import InputError
+from .search import check_stars, split_runs
 
 
-def _task(batch, body, path, window, corrections, margin_km, kernels, column_map,
-          allow_no_motion, chunk_rows):
-    """Stages 1 and 2 over a batch of pieces (Piece or StarTable), refined together."""
-    from .ephemeris import get_ephemeris
+def _screen_task(batch, path, margin_km, column_map, allow_no_motion, chunk_rows):
+    """Stage 1 over a batch of pieces (Piece or StarTable): the screened stars."""
     from .partitions import Piece, read_piece
-    from .search import search_path
+    from .search import screen_chunks
 
-    eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
     chunks = (chunk for piece in batch
               for chunk in (read_piece(piece, column_map, allow_no_motion, chunk_rows)
                             if isinstance(piece, Piece) else [piece]))
-    return search_path(eph, body, path, chunks, window, corrections, margin_km, False, chunk_rows)
+    return screen_chunks(path, chunks, margin_km, chunk_rows)
+
+
+def _refine_task(part, body, path, window, corrections, margin_km, kernels):
+    """Stage 2 for a group of screened stars: (candidates, skipped)."""
+    from .ephemeris import get_ephemeris
+    from .search import refine_all
+
+    stars, rows, reach = part
+    eph = get_ephemeris(tuple(str(k) for k in (kernels or [])))
+    return refine_all(eph, body, path, stars, rows, reach, window, corrections, margin_km, False)
+
+
+def _merge_screened(results):
+    """The screened stars of all batches as one (stars, rows, Reach), rows counted across
+    the batches in order; and the stars searched and prefiltered."""
+    from .search import Reach, concat_tables
+
+    parts, row_parts, runs = [], [], []
+    n_searched = n_hits = n_stars = 0
+    for stars, rows, reach, searched, hits in results:
+        if stars is not None and len(rows):
+            parts.append(stars)
+            row_parts.append(rows + n_searched)
+            runs.append((reach.run_star + n_stars, reach.run_first, reach.run_last))
+            n_stars += len(rows)
+        n_searched += searched
+        n_hits += hits
+    if not parts:
+        return None, None, None, n_searched, n_hits
+    reach = Reach(np.arange(n_stars), *(np.concatenate(x) for x in zip(*runs)))
+    return concat_tables(parts), np.concatenate(row_parts), reach, n_searched, n_hits
 
 
 def batches(pieces, rows, n_workers: int, chunk_rows: int):
-    """The pieces in contiguous batches of about equal rows: at least one batch a worker (two
-    when there are enough pieces, so a slow batch does not idle the others), and no batch
-    larger than ``chunk_rows`` rows unless a single piece is.  Small pieces refined one by
-    one would pay the per-task and per-refinement overheads for a handful of stars each."""
+    """The pieces in contiguous batches of about equal rows (round 1's cost follows the
+    rows): one batch a worker, more where a batch would exceed ``chunk_rows`` rows (unless a
+    single piece does).  Small pieces one task each would pay the per-task overhead for a
+    few hundred rows."""
     rows = [max(int(r), 1) for r in rows]
     total = sum(rows)
-    n = max(min(2 * n_workers, len(pieces)), -(-total // chunk_rows), 1)
+    n = max(min(n_workers, len(pieces)), -(-total // chunk_rows), 1)
     target = total / n
     out, cur, acc = [], [], 0
     for pc, r in zip(pieces, rows):
@@ -90,18 +124,29 @@ def search_on_dask(body, path, source, window, corrections, margin_km, kernels=N
             cmap, allow = {}, False
         n_workers = max(len(client.scheduler_info().get("workers", {})), 1)
         big = client.scatter([body, path], broadcast=True)
-        futures = [client.submit(_task, b, big[0], big[1], window, corrections, margin_km,
-                                 kernels, cmap, allow, chunk_rows, pure=False)
-                   for b in batches(pieces, rows, n_workers, chunk_rows)]
-        results = client.gather(futures)
+        # stage 1 per batch of pieces (its cost follows the rows) ...
+        screened = client.gather([
+            client.submit(_screen_task, b, big[1], margin_km, cmap, allow, chunk_rows,
+                          pure=False)
+            for b in batches(pieces, rows, n_workers, chunk_rows)])
+        stars, star_rows, reach, n_searched, n_hits = _merge_screened(screened)
+        results = []
+        if stars is not None:
+            check_stars(stars)
+            # ... stage 2 on groups of equal refinement work (it follows the stars near the
+            # path, which cluster in a few pieces)
+            groups = split_runs(stars, star_rows, reach, 2 * n_workers)
+            results = client.gather([
+                client.submit(_refine_task, g, big[0], big[1], window, corrections, margin_km,
+                              kernels, pure=False) for g in groups])
     finally:
         if own:
             client.close()
             if cluster is not None:
                 cluster.close()
-    candidates, skipped, counts = [], [], [0, 0, 0]
-    for cands, skip, cnt in results:
+    candidates, skipped = [], []
+    for cands, skip in results:
         candidates += cands
         skipped += skip
-        counts = [a + b for a, b in zip(counts, cnt)]
-    return candidates, skipped, tuple(counts)
+    n_screened = 0 if reach is None else int(reach.rows.size)
+    return candidates, skipped, (n_searched, n_hits, n_screened)

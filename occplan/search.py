@@ -723,11 +723,13 @@ def years_from_epoch(epoch_yr: float, t0_s: float, t1_s: float) -> float:
     return max(abs(t0_s - ep), abs(t1_s - ep)) / 86400.0 / JULIAN_YEAR_DAYS
 
 
-def search_path(eph, body, path: PlanetPath, chunks, window, corrections: Corrections,
-                margin_km: float, progress=None, chunk_rows: int = DEFAULT_CHUNK_ROWS):
-    """Stages 1 and 2 over StarTable chunks (a StarTable is cut into ``chunk_rows``).
+def screen_chunks(path: PlanetPath, chunks, margin_km: float,
+                  chunk_rows: int = DEFAULT_CHUNK_ROWS):
+    """Stage 1 over StarTable chunks (a StarTable is cut into ``chunk_rows``): the prefilter
+    and the screen.
 
-    Returns (candidates, skipped, (stars searched, prefiltered, screened)).
+    Returns (stars screened or None, their catalog rows as streamed, their :class:`Reach`
+    (``run_star`` indexes the screened stars), stars searched, stars prefiltered).
     """
     from scipy.spatial import cKDTree
 
@@ -743,13 +745,45 @@ def search_path(eph, body, path: PlanetPath, chunks, window, corrections: Correc
             n_hits += reach.rows.size
         n_searched += len(chunk)
     if not parts:
-        return [], [], (n_searched, 0, 0)
+        return None, None, None, n_searched, 0
     hits = concat_tables(parts)
     rows = np.concatenate(row_parts)
     reach = Reach(np.arange(n_hits), *(np.concatenate(x) for x in zip(*runs)))
     pre = screen(path, hits, reach, EARTH_RADIUS_KM + margin_km)
-    stars = hits.subset(pre.rows)
-    rows = rows[pre.rows]
+    return hits.subset(pre.rows), rows[pre.rows], pre, n_searched, n_hits
+
+
+def split_runs(stars, rows, reach: Reach, parts: int) -> list:
+    """Screened stars cut into up to ``parts`` groups of contiguous stars with about equal
+    numbers of path nodes to refine (the refinement's cost): a list of (stars, rows, Reach),
+    each Reach's ``run_star`` indexing its own group."""
+    n = len(rows)
+    nodes = np.bincount(reach.run_star, weights=reach.run_last - reach.run_first + 1.0,
+                        minlength=n)
+    total = float(nodes.sum())
+    parts = max(1, min(int(parts), n))
+    cut = np.searchsorted(np.cumsum(nodes), total * np.arange(1, parts) / parts, side="right")
+    bounds = np.unique(np.r_[0, np.minimum(cut + 1, n), n])
+    out = []
+    for lo, hi in zip(bounds[:-1], bounds[1:]):
+        sel = (reach.run_star >= lo) & (reach.run_star < hi)
+        if not np.any(sel):
+            continue
+        out.append((stars.subset(np.arange(lo, hi)), rows[lo:hi],
+                    Reach(np.arange(hi - lo), reach.run_star[sel] - lo, reach.run_first[sel],
+                          reach.run_last[sel])))
+    return out
+
+
+def search_path(eph, body, path: PlanetPath, chunks, window, corrections: Corrections,
+                margin_km: float, progress=None, chunk_rows: int = DEFAULT_CHUNK_ROWS):
+    """Stages 1 and 2 over StarTable chunks (a StarTable is cut into ``chunk_rows``).
+
+    Returns (candidates, skipped, (stars searched, prefiltered, screened)).
+    """
+    stars, rows, pre, n_searched, n_hits = screen_chunks(path, chunks, margin_km, chunk_rows)
+    if stars is None:
+        return [], [], (n_searched, 0, 0)
     check_stars(stars)
     candidates, skipped = [], []
     if pre.run_star.size:

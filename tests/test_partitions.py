@@ -183,8 +183,9 @@ def _reach(body, window):
 
 
 def test_dask_batches_cover_every_piece_in_order_with_balanced_rows():
-    """Pieces grouped for Dask tasks: all kept, in order, one batch or more per worker, and
-    no batch much larger than an even share (common practice for task sizing)."""
+    """Pieces grouped for Dask tasks: all kept, in order, one batch per worker (more when a
+    batch would pass the chunk size), none much larger than an even share (common practice
+    for task sizing)."""
     from occplan.dask_engine import batches
 
     rng = np.random.default_rng(3)
@@ -192,9 +193,45 @@ def test_dask_batches_cover_every_piece_in_order_with_balanced_rows():
     pieces = list(range(59))
     out = batches(pieces, rows, 2, 250_000)
     assert [p for b in out for p in b] == pieces
-    assert len(out) == 4
+    assert len(out) == 2
     share = sum(rows) / len(out)
     assert max(sum(rows[p] for p in b) for b in out) < share + max(rows)
     big = batches(pieces, [100_000] * 59, 2, 250_000)
     assert len(big) >= 59 * 100_000 // 250_000 and max(len(b) for b in big) <= 3
     assert batches([7], [5], 4, 250_000) == [[7]]
+
+
+def test_refinement_groups_split_the_work_evenly_and_lose_nothing():
+    """Screened stars cut into groups for round 2: every star and run exactly once, in
+    order, each group's runs pointing at its own stars, and the path nodes to refine shared
+    within one star's worth of an even split (common practice for load balancing)."""
+    from occplan.search import Reach, split_runs
+
+    rng = np.random.default_rng(4)
+    n = 300
+    stars = _tiny_table(n)
+    per_star = rng.integers(1, 4, n)
+    run_star = np.repeat(np.arange(n), per_star)
+    first = rng.integers(0, 8000, run_star.size)
+    last = first + np.where(run_star < 40, 60, 3)  # the first stars hold most of the work
+    reach = Reach(np.arange(n), run_star, first, last)
+    rows = np.arange(n) * 10
+    groups = split_runs(stars, rows, reach, 4)
+    assert 2 <= len(groups) <= 4
+    assert np.array_equal(np.concatenate([g[1] for g in groups]), rows)
+    got = np.concatenate([g[2].run_star + sum(len(h[1]) for h in groups[:k])
+                          for k, g in enumerate(groups)])
+    assert np.array_equal(got, run_star)
+    work = [float(np.sum(g[2].run_last - g[2].run_first + 1)) for g in groups]
+    biggest = float(np.max(np.bincount(run_star, weights=last - first + 1.0)))
+    assert max(work) <= sum(work) / len(groups) + biggest
+    for st, rw, rc in groups:
+        assert len(st) == len(rw) and rc.run_star.max() < len(rw)
+
+
+def _tiny_table(n):
+    nan = np.full(n, np.nan)
+    return StarTable(source_id=np.arange(n).astype(str).astype(object),
+                     ra_deg=np.linspace(0, 10, n), dec_deg=np.zeros(n), pm_ra_mas_yr=np.zeros(n),
+                     pm_dec_mas_yr=np.zeros(n), parallax_mas=np.zeros(n), rv_km_s=np.zeros(n),
+                     epoch_jd_tt=np.full(n, 2457389.0), vmag=nan, kmag=nan, gmag=nan)
