@@ -30,9 +30,10 @@ def available_cores() -> int:
         return max(os.cpu_count() or 1, 1)
 
 
-def effective_jobs(jobs: int, n_items: int, min_items_per_job: int = MIN_ITEMS_PER_JOB) -> int:
+def effective_jobs(jobs: int, n_items: int, min_items_per_job: int | None = None) -> int:
     """The number of processes :func:`map_indexed` will use: ``jobs`` (0: one per core),
-    at most one per ``min_items_per_job`` items, and 1 where ``fork`` is not used.
+    at most one per ``min_items_per_job`` items (default :data:`MIN_ITEMS_PER_JOB`), and 1
+    where ``fork`` is not used.
 
     Raises
     ------
@@ -50,7 +51,8 @@ def effective_jobs(jobs: int, n_items: int, min_items_per_job: int = MIN_ITEMS_P
 
     if multiprocessing.current_process().daemon:  # a pool's worker may not start a pool
         return 1
-    return max(1, min(jobs, n_items // max(int(min_items_per_job), 1)))
+    per_job = MIN_ITEMS_PER_JOB if min_items_per_job is None else int(min_items_per_job)
+    return max(1, min(jobs, n_items // max(per_job, 1)))
 
 
 def _call(i: int):
@@ -58,7 +60,7 @@ def _call(i: int):
 
 
 def map_indexed(func, n_items: int, jobs: int = 1, advance=None,
-                min_items_per_job: int = MIN_ITEMS_PER_JOB, first_here: bool = True) -> list:
+                min_items_per_job: int | None = None, first_here: bool = True) -> list:
     """``[func(0), ..., func(n_items - 1)]``, on :func:`effective_jobs` processes.
 
     ``advance()`` is called once per finished item (a progress bar).  An exception in

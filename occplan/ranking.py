@@ -559,12 +559,15 @@ def print_note(text: str) -> None:
 
 
 def reevaluate_rows(rows: list[dict], meta: dict, *, settings: RankSettings = RankSettings(),
-                    weights: Weights | None = None, kernels=None, progress=None) -> list[dict]:
-    """Evaluate the events of find rows again (another telescope, cadence or band)."""
+                    weights: Weights | None = None, kernels=None, progress=None,
+                    jobs: int = 1) -> list[dict]:
+    """Evaluate the events of find rows again (another telescope, cadence or band); ``jobs``
+    processes share them (:func:`occplan.parallel.map_indexed`)."""
     from .bodies import get_body
     from .catalogs import Site
     from .ephemeris import Observer, StarSpec, parse_utc, tdb_s_of
     from .geometry import Corrections
+    from .parallel import map_indexed
     from .search import _progress
 
     weights = weights or load_weights()
@@ -575,43 +578,46 @@ def reevaluate_rows(rows: list[dict], meta: dict, *, settings: RankSettings = Ra
     corrections = Corrections(deflection=bool(corr.get("planet_deflection", True)),
                               barycentre_only=bool(corr.get("barycentre_only", False)))
     observers = {o["name"]: o for o in meta.get("observers", [])}
-    out = []
+    for row in rows:  # every site known before any work
+        if row["site"] not in observers:
+            raise DataFileError(f"find result: site {row['site']!r} is not in its meta observers")
+
+    def one(i):
+        row = rows[i]
+        o = observers[row["site"]]
+        if o["kind"] == "site":
+            site = Site(o["name"], o["lat_deg"], o["lon_deg"], o.get("height_m", 0.0),
+                        o.get("telescope"), o.get("min_altitude_deg"))
+            observer = site.observer()
+        else:
+            site, observer = None, Observer.geocentre()
+        star = StarSpec(ra_deg=row["star_ra_deg"], dec_deg=row["star_dec_deg"],
+                        pm_ra_mas_yr=row["star_pm_ra_mas_yr"], pm_dec_mas_yr=row["star_pm_dec_mas_yr"],
+                        parallax_mas=row["star_parallax_mas"], rv_km_s=row["star_rv_km_s"],
+                        epoch_jd_tt=row["star_epoch_jd_tt"], name=str(row["star_id"]),
+                        vmag=row.get("vmag"), kmag=row.get("kmag"),
+                        extra=_json_object(row, "star_extra"),
+                        errors=_json_object(row, "star_errors"))
+        new = dict(row)
+        if row.get("crossing_start_utc"):
+            a = tdb_s_of(parse_utc(row["crossing_start_utc"])) - EVAL_PAD_S
+            b = tdb_s_of(parse_utc(row["crossing_end_utc"])) + EVAL_PAD_S
+            records, score, tel = evaluate_and_score(body, star, observer, (a, b), site=site,
+                                                     kernels=kernels, corrections=corrections,
+                                                     settings=settings, weights=weights)
+        else:
+            records, score, tel = [], score_zones([], weights), ""
+        for key in SCORE_FIELDS:
+            if key in score:
+                new[key] = score[key]
+        new["telescope"] = tel
+        new["zone_factors"], new["zones"] = score["zone_factors"], records
+        return new
+
     bar = _progress(len(rows), "evaluating events", progress)
     try:
-        for row in rows:
-            o = observers.get(row["site"])
-            if o is None:
-                raise DataFileError(f"find result: site {row['site']!r} is not in its meta observers")
-            if o["kind"] == "site":
-                site = Site(o["name"], o["lat_deg"], o["lon_deg"], o.get("height_m", 0.0),
-                            o.get("telescope"), o.get("min_altitude_deg"))
-                observer = site.observer()
-            else:
-                site, observer = None, Observer.geocentre()
-            star = StarSpec(ra_deg=row["star_ra_deg"], dec_deg=row["star_dec_deg"],
-                            pm_ra_mas_yr=row["star_pm_ra_mas_yr"], pm_dec_mas_yr=row["star_pm_dec_mas_yr"],
-                            parallax_mas=row["star_parallax_mas"], rv_km_s=row["star_rv_km_s"],
-                            epoch_jd_tt=row["star_epoch_jd_tt"], name=str(row["star_id"]),
-                            vmag=row.get("vmag"), kmag=row.get("kmag"),
-                            extra=_json_object(row, "star_extra"),
-                            errors=_json_object(row, "star_errors"))
-            new = dict(row)
-            if row.get("crossing_start_utc"):
-                a = tdb_s_of(parse_utc(row["crossing_start_utc"])) - EVAL_PAD_S
-                b = tdb_s_of(parse_utc(row["crossing_end_utc"])) + EVAL_PAD_S
-                records, score, tel = evaluate_and_score(body, star, observer, (a, b), site=site,
-                                                         kernels=kernels, corrections=corrections,
-                                                         settings=settings, weights=weights)
-            else:
-                records, score, tel = [], score_zones([], weights), ""
-            for key in SCORE_FIELDS:
-                if key in score:
-                    new[key] = score[key]
-            new["telescope"] = tel
-            new["zone_factors"], new["zones"] = score["zone_factors"], records
-            out.append(new)
-            if bar is not None:
-                bar.advance(bar.task)
+        out = map_indexed(one, len(rows), jobs,
+                          advance=None if bar is None else lambda: bar.advance(bar.task))
     finally:
         if bar is not None:
             bar.stop()

@@ -208,3 +208,24 @@ def test_gaia_only_catalog_keeps_its_photometry_through_rank(files, tmp_path):
              for r in found_rows if r["star_id"] == rows[0][0]]
     assert pairs and all(bright >= faint for bright, faint in pairs)
     assert any(bright > faint for bright, faint in pairs)
+
+
+def test_rank_reevaluation_on_two_processes_gives_the_same_rows(found, monkeypatch):
+    """`rank --from` with another cadence re-evaluates every event; on two forked processes
+    the rows are the very same (nan-aware JSON text compared; common practice for a pool)."""
+    from typer.testing import CliRunner
+
+    import occplan.parallel
+    from occplan.cli.main import build_app
+
+    monkeypatch.setattr(occplan.parallel, "MIN_ITEMS_PER_JOB", 1)  # fork even for a few rows
+    out, data = found
+    assert occplan.parallel.effective_jobs(2, len(data["rows"])) == 2
+    texts = []
+    for jobs in ("1", "2"):
+        res = CliRunner().invoke(build_app(), ["rank", "--from", str(out), "--cadence", "0.2",
+                                               "--format", "json", "--jobs", jobs],
+                                 catch_exceptions=False)
+        assert res.exit_code == 0, res.output
+        texts.append(json.dumps(json.loads(res.stdout)["rows"], sort_keys=True))
+    assert texts[0] == texts[1] and '"zones"' in texts[0]

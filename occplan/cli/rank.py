@@ -59,6 +59,9 @@ def register(app: typer.Typer) -> None:
             raise InputError(f"--top {top}: give a positive number of events")
         settings = f.rank_settings(telescope, cadence, band, aperture, samples_per_wavelength,
                                    max_order, sigma, min_snr, luminosity_class)
+        from ..parallel import effective_jobs
+
+        effective_jobs(jobs, 0)  # a bad --jobs is refused before any work
         w = ranking.load_weights(weights)
         if source is not None:
             if catalog is not None:
@@ -71,7 +74,7 @@ def register(app: typer.Typer) -> None:
                                   or sigma is not None or max_order != 3)
             if evaluation_changed:
                 rows = ranking.reevaluate_rows(rows, meta, settings=settings, weights=w,
-                                               kernels=kernel, progress=progress)
+                                               kernels=kernel, progress=progress, jobs=jobs)
             else:
                 rows = ranking.rescore_rows(rows, meta, w)
                 meta.setdefault("ranking", {})["weights"] = w.describe()
