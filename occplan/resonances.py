@@ -235,9 +235,14 @@ def _planar_eccentric(r, a, gm, e, m, k, nodes=KEPLER_NODES):
     """
     mean_anomaly = 2.0 * np.pi * np.arange(nodes) / nodes
     rho, phi = _kepler(mean_anomaly, e)
+    # r_s(M) = r_s(2 pi - M): the separation coefficients, which depend on r / r_s only, are
+    # evaluated on the nodes 0..pi and mirrored (half the Laplace-coefficient work)
+    mirror = np.minimum(np.arange(nodes), (nodes - np.arange(nodes)) % nodes)
+    first = np.arange(int(mirror.max()) + 1)
+    rho = rho[:, first][:, mirror]
     r_s = a[:, None] * rho
-    ratio = r[:, None] / r_s
-    c, qdc = separation_coefficient(0.5, m[:, None], ratio)
+    c_half, qdc_half = separation_coefficient(0.5, m[:, None], r[:, None] / r_s[:, first])
+    c, qdc = c_half[:, mirror], qdc_half[:, mirror]
     direct = -gm[:, None] / (2.0 * r_s)
     indirect = np.where(m[:, None] == 1, gm[:, None] * r[:, None] / (2.0 * r_s**2), 0.0)
     weight = np.cos(m[:, None] * phi - k[:, None] * mean_anomaly)
