@@ -109,8 +109,21 @@ def map_indexed(func, n_items: int, jobs: int = 1, advance=None,
 def _worker_start() -> None:
     """A forked worker takes the default action on SIGTERM (the parent's handlers, such as
     the one that cleans up a file being written, are not the worker's business) and leaves
-    SIGINT to the parent, which stops the pool."""
+    SIGINT to the parent, which stops the pool.  Its notes go to stderr through a plain
+    handler: a terminal handler's console lock may have been held by the parent's progress
+    bar thread at the fork, and no thread of the worker would ever release it."""
+    import logging
     import signal
+
+    from .log import LOGGER, _CurrentStderr
 
     signal.signal(signal.SIGTERM, signal.SIG_DFL)
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    if LOGGER.handlers:
+        level = LOGGER.level
+        for h in list(LOGGER.handlers):
+            LOGGER.removeHandler(h)
+        handler = _CurrentStderr()
+        handler.setFormatter(logging.Formatter("%(message)s"))
+        LOGGER.addHandler(handler)
+        LOGGER.setLevel(level)
