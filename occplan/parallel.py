@@ -6,7 +6,7 @@ index on ``jobs`` worker processes started by ``fork`` (Linux): the workers inhe
 parent's inputs and caches (open kernels, tables) without pickling them, and only the results
 travel back.  Where ``fork`` is not the platform's safe choice (macOS, Windows) or ``jobs`` is
 1, the same calls run in this process, so results never depend on ``jobs``
-(``tests/test_ranking.py`` compares them).
+(``tests/test_search.py`` and ``tests/test_cli_find_rank.py`` compare them).
 """
 
 from __future__ import annotations
