@@ -16,7 +16,7 @@ AU_KM = 149597870.7  # IAU 2012 resolution B2
 
 
 def test_fresnel_scale_at_saturn():
-    # REFERENCES.md / textbook optics: about 0.6 km at 0.55 um and 1.2 km at 2.2 um for a
+    # Textbook optics, F = sqrt(lambda D / 2) (common practice): about 0.6 km at 0.55 um and 1.2 km at 2.2 um for a
     # planet 9.5 AU away.  Exact values are 0.625 and 1.250 km: the reference's "about"
     # figures are cut to one decimal, so the tolerance is 5 % (0.03 and 0.06 km).
     d = 9.5 * AU_KM

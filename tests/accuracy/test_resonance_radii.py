@@ -12,9 +12,9 @@ DEG_DAY = np.pi / 180.0 / 86400.0
 # (satellite, label, kind, published radius km, tolerance km, source and why)
 SATURN_RADII = [
     ("Mimas", "2:1", "ILR", 117553.0, 10.0,
-     "B ring outer edge; REFERENCES.md (from memory); 10 km for gravity-field and n choices"),
+     "B ring outer edge (from memory); 10 km for gravity-field and n choices"),
     ("Janus", "6:5", "ILR", 134265.0, 25.0,
-     "REFERENCES.md (from memory); the Janus/Epimetheus swap moves it ~20 km"),
+     "published wave radius (from memory); the Janus/Epimetheus swap moves it ~20 km"),
     ("Janus", "4:3", "ILR", 125270.0, 25.0,
      "Tiscareno et al. 2007, Icarus 189, 14, wave list (from memory); swap ~20 km"),
     ("Janus", "5:4", "ILR", 130700.0, 25.0,

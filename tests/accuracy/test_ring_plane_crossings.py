@@ -1,6 +1,6 @@
 """Earth's ring-plane crossings of Saturn against published dates.
 
-Source: published almanac and press dates (REFERENCES.md): the Earth crossed Saturn's ring
+Source: published almanac and press dates (from memory): the Earth crossed Saturn's ring
 plane on 2025-03-23 and on 2009-09-04.  With the IAU pole and DE440 a computation lands
 within a few hours; tolerance 6 h (the issue's figure; the published dates are given to the
 day, and the pole model's uncertainty of ~0.01 deg moves a crossing by hours).
@@ -34,7 +34,7 @@ def test_earth_crossing_dates(saturn, date):
 
 
 def test_sun_crossing_2009_equinox(saturn):
-    """Saturn's equinox (Sun in the ring plane) on 2009-08-11 (published date, REFERENCES.md)."""
+    """Saturn's equinox (Sun in the ring plane) on 2009-08-11 (published date, from memory)."""
     t = tdb_s_of(parse_utc("2009-08-11T12:00:00Z"))
     rows, _ = aspect(saturn, Observer.geocentre(), (t - 4 * 86400, t + 4 * 86400), step_s=3600.0)
     b_sun = np.array([r["sun_opening_angle_deg"] for r in rows])

