@@ -17,10 +17,8 @@ StarTable) is cut into pieces of ``chunk_rows`` rows and sent to the workers.
 
 from __future__ import annotations
 
-import numpy as np
-
 from .errors import InputError
-from .search import check_stars, split_runs
+from .search import check_stars, join_reached, split_runs
 
 
 def _screen_task(batch, path, margin_km, column_map, allow_no_motion, chunk_rows):
@@ -47,22 +45,12 @@ def _refine_task(part, body, path, window, corrections, margin_km, kernels):
 def _merge_screened(results):
     """The screened stars of all batches as one (stars, rows, Reach), rows counted across
     the batches in order; and the stars searched and prefiltered."""
-    from .search import Reach, concat_tables
-
-    parts, row_parts, runs = [], [], []
-    n_searched = n_hits = n_stars = 0
+    parts, n_searched, n_hits = [], 0, 0
     for stars, rows, reach, searched, hits in results:
-        if stars is not None and len(rows):
-            parts.append(stars)
-            row_parts.append(rows + n_searched)
-            runs.append((reach.run_star + n_stars, reach.run_first, reach.run_last))
-            n_stars += len(rows)
+        parts.append((stars, None if rows is None else rows + n_searched, reach))
         n_searched += searched
         n_hits += hits
-    if not parts:
-        return None, None, None, n_searched, n_hits
-    reach = Reach(np.arange(n_stars), *(np.concatenate(x) for x in zip(*runs)))
-    return concat_tables(parts), np.concatenate(row_parts), reach, n_searched, n_hits
+    return (*join_reached(parts), n_searched, n_hits)
 
 
 def batches(pieces, rows, n_workers: int, chunk_rows: int):

@@ -338,10 +338,9 @@ class Track:
 
     def rows(self) -> list[dict]:
         """Chord rows with the field names of docs/output_schema.md."""
-        cols = self.columns()
-        names = list(cols)
-        return [dict(zip(names, values))
-                for values in zip(*(np.asarray(c).tolist() for c in cols.values()))]
+        from .tables import columns_to_rows
+
+        return columns_to_rows(self.columns())
 
 
 class _Interpolant:

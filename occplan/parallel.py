@@ -59,15 +59,28 @@ def _call(i: int):
     return i, _FUNC(i)
 
 
-def map_indexed(func, n_items: int, jobs: int = 1, advance=None,
+def map_indexed(func, n_items: int, jobs: int = 1, progress=None, label: str = "",
                 min_items_per_job: int | None = None, first_here: bool = True) -> list:
     """``[func(0), ..., func(n_items - 1)]``, on :func:`effective_jobs` processes.
 
-    ``advance()`` is called once per finished item (a progress bar).  An exception in
+    ``progress`` and ``label``: a progress bar on stderr advanced once per finished item
+    (None: when stderr is a terminal; :func:`occplan.search._progress`).  An exception in
     ``func`` is raised here, as in a plain loop.  ``min_items_per_job`` 1 suits items that
     take seconds each (a figure); so does ``first_here=False``: the first item then goes to
     a worker too (by default it runs here first, so the caches it fills are inherited).
     """
+    from .search import _progress
+
+    bar = _progress(n_items, label, progress) if label else None
+    try:
+        return _map(func, n_items, jobs, None if bar is None else lambda: bar.advance(bar.task),
+                    min_items_per_job, first_here)
+    finally:
+        if bar is not None:
+            bar.stop()
+
+
+def _map(func, n_items, jobs, advance, min_items_per_job, first_here) -> list:
     global _FUNC
     n_jobs = effective_jobs(jobs, n_items, min_items_per_job)
     if n_jobs <= 1:

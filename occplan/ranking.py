@@ -377,7 +377,6 @@ def score_events(result, *, kernels=None, corrections=None, settings: RankSettin
     (:func:`occplan.parallel.map_indexed`; 0: one per core); the results do not depend on it.
     """
     from .parallel import map_indexed
-    from .search import _progress
 
     weights = weights or load_weights()
     events = result.events
@@ -399,13 +398,7 @@ def score_events(result, *, kernels=None, corrections=None, settings: RankSettin
         score["telescope"] = tel
         return records, score
 
-    bar = _progress(len(events), "evaluating events", progress)
-    try:
-        done = map_indexed(one, len(events), jobs,
-                           advance=None if bar is None else lambda: bar.advance(bar.task))
-    finally:
-        if bar is not None:
-            bar.stop()
+    done = map_indexed(one, len(events), jobs, progress, "evaluating events")
     for ev, (records, score) in zip(events, done):
         ev.zones, ev.score = records, score
     result.meta["ranking"] = ranking_meta(weights, settings)
@@ -568,7 +561,6 @@ def reevaluate_rows(rows: list[dict], meta: dict, *, settings: RankSettings = Ra
     from .ephemeris import Observer, StarSpec, parse_utc, tdb_s_of
     from .geometry import Corrections
     from .parallel import map_indexed
-    from .search import _progress
 
     weights = weights or load_weights()
     body_file = str(meta.get("body_file") or "")
@@ -614,12 +606,6 @@ def reevaluate_rows(rows: list[dict], meta: dict, *, settings: RankSettings = Ra
         new["zone_factors"], new["zones"] = score["zone_factors"], records
         return new
 
-    bar = _progress(len(rows), "evaluating events", progress)
-    try:
-        out = map_indexed(one, len(rows), jobs,
-                          advance=None if bar is None else lambda: bar.advance(bar.task))
-    finally:
-        if bar is not None:
-            bar.stop()
+    out = map_indexed(one, len(rows), jobs, progress, "evaluating events")
     meta["ranking"] = ranking_meta(weights, settings)
     return out

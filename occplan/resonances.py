@@ -47,7 +47,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .bodies import get_body
-from .constants import GRAVITATIONAL_CONSTANT_KM3_KG_S2, SECONDS_PER_DAY
+from .constants import DEFAULT_MAX_M, GRAVITATIONAL_CONSTANT_KM3_KG_S2, SECONDS_PER_DAY
 from .dynamics import (
     frequencies,
     frequency_radial_derivatives,
@@ -68,7 +68,6 @@ __all__ = [
 ]
 
 MAX_ORDER = 3
-from .constants import DEFAULT_MAX_M  # noqa: E402 (re-exported)
 KINDS = ("ILR", "OLR", "IVR", "OVR", "CR")
 _SIDE = {"ILR": 1, "OLR": -1, "IVR": 1, "OVR": -1}
 KM4_S2_TO_CM4_S2 = 1e20

@@ -280,29 +280,23 @@ def node_rad(orbit: RingOrbit, body, t_tdb_s, which: str = "outer") -> np.ndarra
 
 
 def edge_radius_km(orbit: RingOrbit, body, which: str, longitude_rad, t_tdb_s) -> np.ndarray:
-    """Radius of the inner or outer edge at ring longitude and time (module docstring)."""
-    o = orbit.edge_orbit(which)
-    lon = np.asarray(longitude_rad, dtype=float)
-    f = lon - periapse_rad(orbit, body, t_tdb_s, which)
-    r = o.a_km * (1.0 - o.e * o.e) / (1.0 + o.e * np.cos(f))
-    if o.modes:
-        dt_day = _days(orbit, t_tdb_s)
-        offset = reference_offset_rad(orbit, body)
-        for mode in o.modes:
-            arg = mode.m * (lon - offset - math.radians(mode.phase_deg)
-                            - math.radians(mode.pattern_speed_deg_day) * dt_day)
-            r = r - mode.amplitude_km * np.cos(arg)
-    return r
+    """Radius of the inner or outer edge at ring longitude and time (module docstring;
+    the formula is :meth:`EdgeSet.radius`)."""
+    return _one_edge(orbit, body, which, longitude_rad, t_tdb_s, "radius")
 
 
 def edge_height_km(orbit: RingOrbit, body, which: str, longitude_rad, t_tdb_s) -> np.ndarray:
-    """Height of an inclined edge above the ring plane, a sin i sin(lambda - Omega), km."""
-    o = orbit.edge_orbit(which)
-    lon = np.asarray(longitude_rad, dtype=float)
-    if not o.inclination_deg:
-        return np.zeros_like(lon)
-    return o.a_km * math.sin(math.radians(o.inclination_deg)) * np.sin(
-        lon - node_rad(orbit, body, t_tdb_s, which))
+    """Height of an inclined edge above the ring plane, a sin i sin(lambda - Omega), km
+    (:meth:`EdgeSet.height`)."""
+    return _one_edge(orbit, body, which, longitude_rad, t_tdb_s, "height")
+
+
+def _one_edge(orbit, body, which, longitude_rad, t_tdb_s, what: str) -> np.ndarray:
+    lon, t = np.broadcast_arrays(np.asarray(longitude_rad, dtype=float),
+                                 np.asarray(t_tdb_s, dtype=float))
+    idx = np.zeros(lon.size, dtype=int)
+    out = getattr(EdgeSet(body, [(orbit, which)]), what)(lon.ravel(), t.ravel(), idx)
+    return out.reshape(lon.shape)
 
 
 def edge_radius_sigma_km(orbit: RingOrbit, body, which: str, longitude_rad, t_tdb_s,
@@ -423,6 +417,7 @@ def apply_ring_orbits(track) -> list[str]:
     edges = [(todo[k][0].orbit, which) for k, _side, which, _a, _b in jobs]
     solved = _solve_edges(interp, body, shift_dir, edges,
                           np.array([j[3] for j in jobs]), np.array([j[4] for j in jobs]))
+    job_of = {(k, side, which): n for n, (k, side, which, _a, _b) in enumerate(jobs)}
     for k, (reg, _lo, _hi) in enumerate(todo):
         orbit = reg.orbit
         passes = [p for p in track.passes if p.region != reg.name]
@@ -433,8 +428,9 @@ def apply_ring_orbits(track) -> list[str]:
                  if min(abs(g.inner_km - orbit.edge(w)[0]), abs(g.outer_km - orbit.edge(w)[0])) < 1.0]
         for side, a, b in sides:
             times, radii = {}, {}
-            for n, (kk, sd, which, _ba, _bb) in enumerate(jobs):
-                if kk == k and sd == side and np.isfinite(solved[0][n]):
+            for which in ("inner", "outer"):
+                n = job_of.get((k, side, which))
+                if n is not None and np.isfinite(solved[0][n]):
                     times[which], radii[which] = float(solved[0][n]), float(solved[1][n])
             if not times:
                 continue  # this side misses the ring itself

@@ -734,23 +734,33 @@ def screen_chunks(path: PlanetPath, chunks, margin_km: float,
     from scipy.spatial import cKDTree
 
     tree = cKDTree(path.unit)
-    n_searched, parts, row_parts, runs = 0, [], [], []
-    n_hits = 0
+    n_searched, parts = 0, []
     for chunk in iter_chunks(chunks, chunk_rows):
         reach = prefilter(path, chunk, tree)
         if reach.rows.size:
-            parts.append(chunk.subset(reach.rows))
-            row_parts.append(reach.rows + n_searched)
-            runs.append((reach.run_star + n_hits, reach.run_first, reach.run_last))
-            n_hits += reach.rows.size
+            parts.append((chunk.subset(reach.rows), reach.rows + n_searched, reach))
         n_searched += len(chunk)
-    if not parts:
+    hits, rows, reach = join_reached(parts)
+    if hits is None:
         return None, None, None, n_searched, 0
-    hits = concat_tables(parts)
-    rows = np.concatenate(row_parts)
-    reach = Reach(np.arange(n_hits), *(np.concatenate(x) for x in zip(*runs)))
     pre = screen(path, hits, reach, EARTH_RADIUS_KM + margin_km)
-    return hits.subset(pre.rows), rows[pre.rows], pre, n_searched, n_hits
+    return hits.subset(pre.rows), rows[pre.rows], pre, n_searched, len(rows)
+
+
+def join_reached(parts):
+    """Several (stars, their catalog rows, their :class:`Reach`) as one: the tables and rows
+    concatenated, each Reach's ``run_star`` moved past the stars before it.  Parts without
+    stars are left out; (None, None, None) when none has any."""
+    parts = [p for p in parts if p[0] is not None and len(p[1])]
+    if not parts:
+        return None, None, None
+    offsets = np.cumsum([0] + [len(p[1]) for p in parts[:-1]])
+    rows = np.concatenate([p[1] for p in parts])
+    reach = Reach(np.arange(rows.size),
+                  np.concatenate([p[2].run_star + o for p, o in zip(parts, offsets)]),
+                  np.concatenate([p[2].run_first for p in parts]),
+                  np.concatenate([p[2].run_last for p in parts]))
+    return concat_tables([p[0] for p in parts]), rows, reach
 
 
 def split_runs(stars, rows, reach: Reach, parts: int) -> list:
@@ -933,13 +943,7 @@ def find_events(body, table, window, observers, *, kernels=None,
         except GeometryError as exc:
             return f"{obs.name}: {exc}"
 
-    bar = _progress(len(work), "observer tracks", progress)
-    try:
-        done = map_indexed(one, len(work), jobs,
-                           advance=None if bar is None else lambda: bar.advance(bar.task))
-    finally:
-        if bar is not None:
-            bar.stop()
+    done = map_indexed(one, len(work), jobs, progress, "observer tracks")
     for (cand, _obs, _site), ev in zip(work, done):
         if isinstance(ev, str):
             skipped.append((cand.star_id, ev))

@@ -226,66 +226,45 @@ def render(rows: list[dict], meta: dict, fmt: str, columns: list[str] | None = N
     return buf.getvalue()
 
 
+def columns_to_rows(columns: dict) -> list[dict]:
+    """A dict of equal-length arrays as one dict per row (plain Python values)."""
+    names = list(columns)
+    return [dict(zip(names, values))
+            for values in zip(*(np.asarray(c).tolist() for c in columns.values()))]
+
+
 def render_columns(columns: dict, meta: dict, fmt: str, header: str | None = None) -> str:
     """The text of a columnar result (a dict of equal-length arrays: a chord's samples).
 
     ECSV and CSV are written column by column: astropy writes the header (units, types,
-    metadata) of the zero-row table, and each column's values are turned into text at once
-    (numpy's shortest round-trip repr for floats, astropy's ISO 8601 for the UTC times), the
-    same text astropy's row-by-row writer gives (tests/test_tables_roundtrip.py compares
-    them) at a fraction of the cost.  Table and JSON go through :func:`render`.
+    metadata) of the first row's table (:func:`to_astropy`), and each column's values are
+    turned into text at once (numpy's shortest round-trip repr for floats, the ISO 8601
+    strings for the UTC times), the same text astropy's row-by-row writer gives
+    (tests/test_tables_roundtrip.py compares them) at a fraction of the cost.  Table and
+    JSON go through :func:`render`.
     """
     from astropy.time import Time
 
     fmt = check_format(fmt)
     names = list(columns)
     if fmt not in ("ecsv", "csv"):
-        rows = [dict(zip(names, values))
-                for values in zip(*(np.asarray(c).tolist() for c in columns.values()))]
-        return render(rows, meta, fmt, columns=names, header=header)
-    n = len(next(iter(columns.values()))) if columns else 0
+        return render(columns_to_rows(columns), meta, fmt, columns=names, header=header)
     writer = "ascii.csv" if fmt == "csv" else "ascii.ecsv"
-    buf = io.StringIO()
+    first = columns_to_rows({c: np.asarray(v)[:1] for c, v in columns.items()})
     # the header as astropy writes it for these columns, from the first row (a zero-row
     # time column would be typed differently), its data line dropped
-    table = _columns_table({c: np.asarray(v)[:1] for c, v in columns.items()}, meta,
-                           times=(fmt == "ecsv"))
+    table = to_astropy(first, meta, names, times=(fmt == "ecsv"))
     if fmt == "csv":
         table.meta.clear()
-    if n == 0:
-        table[:0].write(buf, format=writer)
-        return buf.getvalue()
+    buf = io.StringIO()
     table.write(buf, format=writer)
+    if not first:  # no rows: the header is the whole text
+        return buf.getvalue()
     head = buf.getvalue().rstrip("\n").rsplit("\n", 1)[0] + "\n"
     sep = " " if fmt == "ecsv" else ","
     cells = [_column_text(np.asarray(columns[c]), fmt, isinstance(table[c], Time))
              for c in names]
     return head + "\n".join(map(sep.join, zip(*cells))) + "\n"
-
-
-def _columns_table(columns: dict, meta: dict, times: bool):
-    """:func:`to_astropy` for columns (arrays), without a row loop."""
-    from astropy.table import Table
-    from astropy.time import Time
-
-    from .columns import TIME_COLUMNS, unit_of
-
-    table = Table()
-    for c, values in columns.items():
-        values = np.asarray(values)
-        if times and c in TIME_COLUMNS and values.size and all(isinstance(v, str) and v
-                                                                 for v in values[:1]):
-            table[c] = Time(np.char.rstrip(values.astype(str), "Z"), format="isot",
-                            scale="utc", precision=3)
-            continue
-        if values.dtype == object:
-            values = values.astype(str)
-        table[c] = values
-        unit = unit_of(c)
-        if unit is not None and table[c].dtype.kind in "fiu":
-            table[c].unit = unit or None
-    table.meta.update(_plain(meta))
-    return table
 
 
 def _column_text(values: np.ndarray, fmt: str, is_time: bool = False) -> list[str]:

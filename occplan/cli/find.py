@@ -107,9 +107,6 @@ def run_find(body, catalog, columns, allow_no_motion, start, end, sites, site, l
         raise InputError(f"--engine {engine!r}: give local or dask")
     if scheduler is not None and engine != "dask":
         raise InputError("--scheduler needs --engine dask")
-    from ..parallel import effective_jobs
-
-    effective_jobs(jobs, 0)  # a bad --jobs is refused before the search
     b = common.body(body)
     window = common.window(start, end)
     obs = observers(sites, site, lat, lon, height, geocentre)

@@ -49,9 +49,6 @@ def register(app: typer.Typer) -> None:
         from ..plotting import save_axes_figure
 
         fmt = _tables.check_format(fmt)
-        from ..parallel import effective_jobs
-
-        effective_jobs(jobs, 0)  # a bad --jobs is refused before any work
         _tables.check_out(out, overwrite)
         if chart is not None:
             if chart.suffix.lower() not in (".png", ".pdf"):

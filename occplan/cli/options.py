@@ -96,7 +96,7 @@ Barycentre = Annotated[bool, typer.Option("--barycentre", help="Use the system b
 
 # --- output ---------------------------------------------------------------------------------
 Format = Annotated[OutputFormat, typer.Option("--format", help="Output format.")]
-Jobs = Annotated[int, typer.Option("--jobs", metavar="N", help="Processes for the per-event work (tracks, evaluations, scores; 0: one per core; Linux; the results do not depend on it).")]
+Jobs = Annotated[int, typer.Option("--jobs", metavar="N", min=0, help="Processes for the per-event work (tracks, evaluations, scores; 0: one per core; Linux; the results do not depend on it).")]
 Out = Annotated[Optional[Path], typer.Option("--out", help="Write the output to this file instead of stdout.")]
 Overwrite = Annotated[bool, typer.Option("--overwrite", help="Allow --out to replace an existing file.")]
 

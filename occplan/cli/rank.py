@@ -59,9 +59,6 @@ def register(app: typer.Typer) -> None:
             raise InputError(f"--top {top}: give a positive number of events")
         settings = f.rank_settings(telescope, cadence, band, aperture, samples_per_wavelength,
                                    max_order, sigma, min_snr, luminosity_class)
-        from ..parallel import effective_jobs
-
-        effective_jobs(jobs, 0)  # a bad --jobs is refused before any work
         w = ranking.load_weights(weights)
         if source is not None:
             if catalog is not None:

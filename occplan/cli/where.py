@@ -50,9 +50,6 @@ def register(app: typer.Typer) -> None:
         from ..world import world_grid, world_map
 
         fmt = _tables.check_format(fmt)
-        from ..parallel import effective_jobs
-
-        effective_jobs(jobs, 0)  # a bad --jobs is refused before any work
         _tables.check_out(out, overwrite)
         if map_out is not None:
             if map_out.suffix.lower() not in (".png", ".pdf"):
